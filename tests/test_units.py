@@ -1,0 +1,100 @@
+"""Quantity parsing at the edges (winder.units)."""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+
+from winder.errors import InputError
+from winder.units import format_si, parse, parse_temperature
+
+
+@pytest.mark.parametrize(
+    ("text", "kind", "expected"),
+    [
+        ("0.063 mm", "length", 63e-6),
+        # the trade's mil is a thousandth of an inch: 2.5 x 25.4 um (exact by definition of the inch)
+        ("2.5 mil", "length", 2.5 * 25.4e-6),
+        ("2.5 mils", "length", 2.5 * 25.4e-6),
+        ("0.0025 in", "length", 63.5e-6),
+        ("8 ohm", "resistance", 8.0),
+        ("8 ohms", "resistance", 8.0),
+        ("8 Ohm", "resistance", 8.0),
+        ("8 Ω", "resistance", 8.0),
+        ("6.2 kohm", "resistance", 6200.0),
+        ("6.2 kΩ", "resistance", 6200.0),
+        ("2 V", "voltage", 2.0),
+        ("250 mA", "current", 0.25),
+    ],
+)
+def test_parses_trade_spellings(text, kind, expected):
+    assert parse(text, kind) == pytest.approx(expected, rel=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("text", "expected"),
+    [("25 degC", 25.0), ("25 °C", 25.0), ("25 C", 25.0), ("298.15 K", 25.0), ("77 degF", 25.0),
+     ("-10 degC", -10.0)],
+)
+def test_temperatures(text, expected):
+    assert parse_temperature(text) == pytest.approx(expected, abs=1e-9)
+
+
+@pytest.mark.parametrize(
+    ("value", "kind", "fragment"),
+    [
+        ("8 mm", "resistance", "is not a resistance"),
+        (8, "resistance", "bare number"),
+        ("8", "resistance", "no unit"),
+        ("nan mm", "length", "finite"),
+        ("inf mm", "length", "finite"),
+        ("-1 mm", "length", "more than zero"),
+        ("0 mm", "length", "more than zero"),
+        ("1,5 mm", "length", "decimal comma"),
+        ("furlong", "length", "not a number"),
+        ("3 blorbs", "length", "unknown unit"),
+        (None, "length", "with units"),
+        (True, "length", "with units"),
+        (["1 mm"], "length", "as text"),
+        ("x" * 500, "length", "characters"),
+    ],
+)
+def test_refuses_with_one_line_naming_file_and_key(value, kind, fragment):
+    with pytest.raises(InputError) as info:
+        parse(value, kind, where="coil.yaml", key="wire.od")
+    text = str(info.value)
+    assert text.startswith("coil.yaml: wire.od: ")
+    assert fragment in text
+    assert "\n" not in text
+
+
+def test_zero_allowed_when_asked():
+    assert parse("0 mm", "length", allow_zero=True) == 0.0
+
+
+def test_maximum():
+    with pytest.raises(InputError):
+        parse("5 km", "length", maximum=10.0)
+
+
+def test_temperature_below_absolute_zero_refused():
+    with pytest.raises(InputError):
+        parse_temperature("-300 degC")
+
+
+@given(st.text(max_size=60))
+def test_parser_never_raises_anything_but_input_error(text):
+    try:
+        value = parse(text, "length")
+    except InputError as err:
+        assert "\n" not in str(err)
+    else:
+        assert math.isfinite(value) and value > 0
+
+
+def test_format_si():
+    assert format_si(6200.0, "ohm") == "6.2 kohm"
+    assert format_si(63e-6, "m") == "63 um"

@@ -1,0 +1,3 @@
+from winder.cli import main
+
+raise SystemExit(main())
