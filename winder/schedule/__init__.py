@@ -1,0 +1,1 @@
+"""Traverse and turn schedule: passes in millimetres and machine steps (layer 2)."""

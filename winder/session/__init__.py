@@ -1,0 +1,1 @@
+"""Winding sessions: journal, resume, calibration, reports and history (layer 4)."""

@@ -1,0 +1,1 @@
+"""Terminal UI: plan view and live winding monitor (layer 5)."""
