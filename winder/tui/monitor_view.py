@@ -1,0 +1,301 @@
+"""The live winding monitor.
+
+Left column: the turn count in large digits with progress against the planned
+turns, speed and time left; the traverse (pass, direction, where the wire
+should be now from the schedule, the guide position the device reports); the
+build in the window section with a fill bar that warns at 90 % and 100 % of the
+usable height. Right column: resistance estimated so far with its band, the
+resistance chart (predicted curve, readings as points) and the event log.
+
+The screen never reads the link: a fixed-rate timer (:data:`REFRESH_HZ`) takes
+the newest :class:`~winder.tui.feed.Batch` from the control's feed and renders it.
+"""
+
+from __future__ import annotations
+
+import time
+from typing import Any
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.screen import Screen
+from textual.widgets import Digits, Footer, ProgressBar, RichLog, Static
+
+from winder.errors import WinderError
+from winder.tui.dialogs import CautionScreen, EntryDialog, ReadingDialog, ReadingEntry
+from winder.tui.feed import Batch, LogLine, Status, WindControl
+from winder.tui.progress import Figures, Reading, duration_text, figures
+from winder.tui.widgets import ChartView, FillBar, GuideTrack, SectionView
+from winder.units import format_si
+
+REFRESH_HZ = 12.0
+
+LINK_TEXT = {
+    "offline": ("○ offline", "#8a94a6"),
+    "connecting": ("◌ connecting", "#d9a440"),
+    "connected": ("● connected", "#5fd7af"),
+    "reconnecting": ("◌ reconnecting", "#d9a440"),
+    "rebooted": ("● connected · device rebooted, count kept", "#d9a440"),
+    "lost": ("✕ link lost: motor stop sent", "#ff5f5f"),
+}
+STATE_TEXT = {
+    "idle": ("READY", "#8a94a6"), "running": ("WINDING", "#5fd7af"),
+    "paused": ("PAUSED", "#d9a440"), "stopped": ("STOPPED", "#ff8f5f"),
+    "done": ("DONE", "#6fa8c8"), "fault": ("FAULT", "#ff5f5f"),
+}
+LOG_STYLE = {"info": "#c0c6d0", "warn": "#d9a440", "error": "bold #ff5f5f",
+             "reading": "#ffaf5f", "mark": "#6fa8c8", "link": "#b48ead"}
+
+
+def _thousands(turns: float) -> str:
+    return f"{int(turns):,}".replace(",", " ")
+
+
+class MonitorScreen(Screen[None]):
+    """Live view of one winding, driven by a :class:`~winder.tui.feed.WindControl`."""
+
+    BINDINGS = [
+        Binding("space", "toggle_pause", "Pause/continue"),
+        Binding("r", "reading", "Log reading"),
+        Binding("b", "mark_break", "Wire break"),
+        Binding("j", "mark_splice", "Splice"),
+        Binding("n", "note", "Note"),
+        Binding("x", "stop", "Stop"),
+        Binding("q", "quit_wind", "Quit"),
+    ]
+
+    def __init__(self, control: WindControl, plan: Any, schedule: Any | None = None, *,
+                 title: str = "", cautioned: bool = False, autostart: bool = False,
+                 clock: Any = time.localtime):
+        super().__init__()
+        self.control = control
+        self.plan = plan
+        self.schedule = schedule
+        self.title_text = title or getattr(getattr(plan, "coil", None), "name", "coil")
+        self.cautioned = cautioned or not getattr(control, "motor", True)
+        self.autostart = autostart
+        self.clock = clock
+        self.status = Status()
+        self.readings: list[Reading] = []
+        self.last: Figures | None = None
+        self.last_temp = "20 degC"
+        self.frames = 0       # renders done (the tests read it to check the rate cap)
+        self._closed = False
+
+    # ----- layout
+    def compose(self) -> ComposeResult:
+        with Horizontal(id="mon-top"):
+            yield Static(id="mon-title")
+            yield Static(id="mon-state")
+            yield Static(id="mon-link")
+        with Horizontal(id="mon-body"):
+            with Vertical(id="mon-left"):
+                with Vertical(id="count-panel", classes="panel") as p:
+                    p.border_title = "turns"
+                    yield Digits("0", id="count")
+                    yield Static(id="count-of")
+                    yield ProgressBar(total=100, show_eta=False, show_percentage=False,
+                                      id="count-bar")
+                    yield Static(id="count-speed")
+                with Vertical(id="pass-panel", classes="panel") as p:
+                    p.border_title = "traverse"
+                    yield Static(id="pass-text")
+                    yield GuideTrack(id="guide")
+                    yield Static(id="guide-text")
+                with Vertical(id="build-panel", classes="panel") as p:
+                    p.border_title = "build"
+                    yield SectionView(id="mon-section")
+                    yield FillBar(id="fill-bar")
+                    yield Static(id="fill-text")
+            with Vertical(id="mon-right"):
+                with Vertical(id="ohm-panel", classes="panel") as p:
+                    p.border_title = "resistance"
+                    yield Static(id="ohm-text")
+                    yield ChartView(id="chart")
+                with Vertical(id="log-panel", classes="panel") as p:
+                    p.border_title = "events"
+                    yield RichLog(id="log", wrap=True, markup=False, max_lines=1000)
+        yield Footer()
+
+    def on_mount(self) -> None:
+        bobbin = self.plan.bobbin
+        self.query_one("#mon-title", Static).update(
+            Text.assemble(("winder ", "bold #5fd7af"), ("· ", "#4a5263"),
+                          (self.title_text, "bold")))
+        self.query_one(GuideTrack).set_window(bobbin.window_width_m * 1e3,
+                                              bobbin.clearance_ends_m * 1e3)
+        self.query_one(ChartView).set_plan(self.plan)
+        self.render_batch(self.control.feed.take(), force=True)
+        self.set_interval(1.0 / REFRESH_HZ, self.tick, name="monitor-refresh")
+        if self.autostart:
+            self.call_after_refresh(self.action_start)
+
+    # ----- refresh
+    def tick(self) -> None:
+        """Timer: render the newest state (at most REFRESH_HZ times a second)."""
+        self.render_batch(self.control.feed.take())
+
+    def render_batch(self, batch: Batch, force: bool = False) -> None:
+        for r in batch.readings:
+            self.readings.append(Reading(r.turns, r.ohm, r.temp_c))
+        log = self.query_one(RichLog)
+        if batch.dropped:
+            log.write(Text(f"… {batch.dropped} older events not shown", "#8a94a6"))
+        for line in batch.lines:
+            log.write(self._log_text(line))
+        if not (batch.changed or batch.readings or force):
+            return
+        self.status = batch.status
+        self.frames += 1
+        f = figures(self.plan, batch.status.turns, batch.status.rpm,
+                    schedule=self.schedule, readings=self.readings)
+        self.last = f
+        self._show(f, batch.status)
+
+    def _log_text(self, line: LogLine) -> Text:
+        stamp = time.strftime("%H:%M:%S", self.clock(line.at))
+        return Text.assemble((stamp + " ", "#5a5f6b"), (line.text, LOG_STYLE.get(line.kind, "")))
+
+    def _show(self, f: Figures, st: Status) -> None:
+        q = self.query_one
+        q("#count", Digits).update(_thousands(f.turns))
+        pct = f.fraction * 100
+        q("#count-of", Static).update(Text.assemble(
+            ("of ", "#8a94a6"), (_thousands(f.planned_turns), "bold"),
+            (" planned  ", "#8a94a6"), (f"{pct:5.1f} %", "bold #5fd7af")))
+        bar = q("#count-bar", ProgressBar)
+        bar.update(total=max(f.planned_turns, 1.0), progress=min(f.turns, f.planned_turns))
+        q("#count-speed", Static).update(Text.assemble(
+            ("speed ", "#8a94a6"), (f"{f.rpm:5.0f} rpm", "bold"),
+            ("   left ", "#8a94a6"), (duration_text(f.remaining_s), "bold")))
+        # Traverse.
+        if f.pass_index is not None:
+            arrow = {"outward": "→ outward", "homeward": "← homeward"}.get(f.direction or "", "")
+            q("#pass-text", Static).update(Text.assemble(
+                ("pass ", "#8a94a6"), (f"{f.pass_index + 1} / {f.pass_count}", "bold"),
+                ("  ", ""), (arrow, "bold #5fd7af")))
+        else:
+            q("#pass-text", Static).update(Text("no schedule: wind evenly across", "#8a94a6"))
+        q(GuideTrack).set_position(f.guide_mm, st.guide_mm, f.direction)
+        parts: list[tuple[str, str]] = []
+        if f.guide_mm is not None:
+            parts += [("wire at ", "#8a94a6"), (f"{f.guide_mm:5.1f} mm", "bold #5fd7af")]
+        if st.guide_mm is not None:
+            parts += [("  guide ", "#8a94a6"), (f"{st.guide_mm:5.1f} mm", "bold")]
+        parts += [("  of ", "#8a94a6"), (f"{self.plan.bobbin.window_width_m * 1e3:.1f} mm",
+                                        "")]
+        q("#guide-text", Static).update(Text.assemble(*parts))
+        # Build.
+        q(SectionView).show(self.plan.bobbin, float(self.plan.build_height_m), f.build_m)
+        q(FillBar).set_fill(f.fill, float(self.plan.fill))
+        msg = {"ok": ("of usable height", "#8a94a6"),
+               "warn": ("NEAR THE RIM: 90 % of usable height", "bold #d9a440"),
+               "full": ("AT THE RIM: usable height reached", "bold #ff5f5f")}[f.fill_level]
+        q("#fill-text", Static).update(Text.assemble(
+            (f"build {f.build_m * 1e3:.2f} mm ", "bold"), msg))
+        # Resistance.
+        e = f.estimate
+        lines = Text.assemble(
+            ("now ", "#8a94a6"), (format_si(e.ohm, "ohm"), "bold #ffaf5f"),
+            (f"  ({format_si(e.lo, 'ohm', 3)} – {format_si(e.hi, 'ohm', 3)})", "#c0c6d0"),
+            (" at 20 °C", "#8a94a6"),
+            ("  calibrated" if e.calibrated else "  from the plan", "#6fa8c8"),
+            ("\ntarget ", "#8a94a6"), (format_si(float(self.plan.resistance_ohm), "ohm"), "bold"),
+            (f" at {_thousands(f.planned_turns)} turns", "#8a94a6"))
+        if f.readings:
+            r = f.readings[-1]
+            lines.append_text(Text.assemble(
+                ("   last reading ", "#8a94a6"), (format_si(r.ohm, "ohm"), "bold #ffaf5f"),
+                (f" at {_thousands(r.turns)} t, {r.temp_c:.1f} °C", "#8a94a6")))
+        q("#ohm-text", Static).update(lines)
+        q(ChartView).set_state(f.turns, f.readings, e)
+        # Top bar.
+        label, colour = STATE_TEXT.get(st.state, (st.state.upper(), "#c0c6d0"))
+        q("#mon-state", Static).update(Text(f" {label} ", f"bold #14161a on {colour}"))
+        ltext, lcol = LINK_TEXT.get(st.link, (st.link, "#c0c6d0"))
+        detail = f" · {st.link_detail}" if st.link_detail else ""
+        q("#mon-link", Static).update(Text(f"link {ltext}{detail}", lcol))
+
+    # ----- actions
+    def _do(self, what: str, fn: Any, *args: Any) -> bool:
+        try:
+            fn(*args)
+        except WinderError as err:
+            self.control.feed.log(f"{what}: {err}", "error")
+            return False
+        return True
+
+    def action_start(self) -> None:
+        """Start or continue the motor; the caution comes first if not yet acknowledged."""
+        if not self.cautioned:
+            self.app.push_screen(CautionScreen(), self._after_caution)
+            return
+        if self.status.state == "paused":
+            self._do("continue", self.control.resume)
+        else:
+            self._do("start", self.control.start)
+
+    def _after_caution(self, accepted: bool | None) -> None:
+        if accepted:
+            self.cautioned = True
+            self.control.feed.log("caution acknowledged", "info")
+            self.action_start()
+        else:
+            self.control.feed.log("motor not started: caution not acknowledged "
+                                  "(space to start)", "warn")
+
+    def action_toggle_pause(self) -> None:
+        if self.status.state == "running":
+            self._do("pause", self.control.pause)
+        else:
+            self.action_start()
+
+    def action_stop(self) -> None:
+        self._do("stop", self.control.stop)
+
+    def action_reading(self) -> None:
+        turns = self.status.turns
+        expected = self.last.estimate.ohm if self.last and turns > 0 else None
+
+        def done(entry: ReadingEntry | None) -> None:
+            if entry is None:
+                return
+            self.last_temp = f"{entry.temp_c:g} degC"
+            self._do("reading", self.control.log_reading, entry.ohm, entry.temp_c)
+
+        self.app.push_screen(ReadingDialog(turns=turns, expected_ohm=expected,
+                                           last_temp=self.last_temp), done)
+
+    def _ask_mark(self, kind: str, title: str, hint: str) -> None:
+        def done(text: object | None) -> None:
+            if text is not None:
+                self._do(kind, self.control.mark, kind, str(text).strip())
+
+        self.app.push_screen(EntryDialog(title, hint, placeholder="optional"), done)
+
+    def action_mark_break(self) -> None:
+        # Stop first: the wire is loose; then ask what happened.
+        self._do("stop", self.control.stop)
+        self._ask_mark("break", "Wire break", "Marked at the count now; the motor is stopped. "
+                       "Note (optional):")
+
+    def action_mark_splice(self) -> None:
+        self._ask_mark("splice", "Splice", "Joined the wire? Note where and how (optional):")
+
+    def action_note(self) -> None:
+        self._ask_mark("note", "Note", "A note for the journal at the count now:")
+
+    def action_quit_wind(self) -> None:
+        """Stop the motor, journal, release the link, leave the app."""
+        self.close_control("quit")
+        self.app.exit()
+
+    def close_control(self, reason: str) -> None:
+        if not self._closed:
+            self._closed = True
+            try:
+                self.control.close(reason)
+            except WinderError as err:
+                self.control.feed.log(f"close: {err}", "error")

@@ -1,0 +1,421 @@
+"""The plan view: a coil's inputs, its figures, warnings, the window section and
+the gauge comparison, with keys to change target, wire or style and re-plan at once.
+
+The screen plans through a :class:`Planner` (by default the real planner and
+schedule); every change builds a new ``Coil`` with :func:`dataclasses.replace`
+and calls ``make_plan`` again, so the figures on screen are always the
+planner's own.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import re
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any
+
+from rich.table import Table
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.screen import Screen
+from textual.widgets import Footer, Static
+
+from winder.errors import InputError, WinderError
+from winder.tui.dialogs import EntryDialog
+from winder.tui.progress import duration_text
+from winder.tui.section import core_text
+from winder.tui.widgets import SectionView
+from winder.units import format_si, parse_resistance
+
+STYLES = ("layer", "orthocyclic", "scatter")
+_INSULATION_RE = re.compile(r"\s+(single|heavy|triple|quad|grade\s*[123])\s*$", re.IGNORECASE)
+_AWG_RE = re.compile(r"^\s*(\d{1,2})\s*AWG\s*$", re.IGNORECASE)
+_MM_RE = re.compile(r"^\s*(\d*\.?\d+)\s*mm\s*$", re.IGNORECASE)
+# Metric enamelled wire nominal diameters in mm, IEC 60317-0-1 (R20 series; from memory).
+METRIC_MM = (0.040, 0.045, 0.050, 0.056, 0.063, 0.071, 0.080, 0.090, 0.100, 0.112, 0.125,
+             0.140, 0.160, 0.180, 0.200, 0.224, 0.250, 0.280, 0.315, 0.355, 0.400, 0.450,
+             0.500, 0.560, 0.630, 0.710, 0.800, 0.900, 1.000)
+
+
+@dataclass(frozen=True)
+class GaugeRow:
+    """One wire in the gauge comparison (SI floats; ``error`` when it cannot be planned)."""
+
+    wire: str
+    turns: int | None = None
+    layers: float | None = None
+    fill: float | None = None
+    resistance_ohm: float | None = None
+    length_m: float | None = None
+    current: bool = False
+    error: str = ""
+
+
+@dataclass
+class Planner:
+    """How the plan view makes plans; the defaults are the real layers."""
+
+    make_plan: Callable[..., Any]
+    make_wire: Callable[..., Any]
+    make_schedule: Callable[[Any], Any] | None = None
+
+    @classmethod
+    def default(cls, machine: Any | None = None) -> Planner:
+        from winder.planner import make_plan
+        from winder.wire import make_wire
+
+        make_schedule = None
+        try:
+            from winder.schedule import build_schedule
+
+            def make_schedule(plan: Any) -> Any:
+                return build_schedule(plan, machine)
+        except ImportError:  # the schedule layer is optional for the plan view
+            pass
+        return cls(make_plan=make_plan, make_wire=make_wire, make_schedule=make_schedule)
+
+
+def neighbour_sizes(size_name: str, span: int = 2) -> list[str]:
+    """The size names ``span`` steps either side of ``size_name`` ('42 AWG' or '0.063 mm')."""
+    m = _AWG_RE.match(size_name)
+    if m:
+        n = int(m.group(1))
+        return [f"{k} AWG" for k in range(n - span, n + span + 1) if 10 <= k <= 56]
+    m = _MM_RE.match(size_name)
+    if m:
+        d = float(m.group(1))
+        i = min(range(len(METRIC_MM)), key=lambda k: abs(METRIC_MM[k] - d))
+        out = [f"{METRIC_MM[k]:.3f} mm" for k in range(max(0, i - span),
+                                                       min(len(METRIC_MM), i + span + 1))]
+        if abs(METRIC_MM[i] - d) > 1e-9:
+            out.append(size_name)
+        return out
+    return [size_name]
+
+
+def step_size(size_name: str, thicker: bool) -> str | None:
+    """The next thicker or thinner standard size after ``size_name``, or None at the end."""
+    m = _AWG_RE.match(size_name)
+    if m:
+        n = int(m.group(1)) + (-1 if thicker else 1)
+        return f"{n} AWG" if 10 <= n <= 56 else None
+    m = _MM_RE.match(size_name)
+    if m:
+        d = float(m.group(1))
+        if thicker:
+            bigger = [x for x in METRIC_MM if x > d + 1e-9]
+            return f"{bigger[0]:.3f} mm" if bigger else None
+        smaller = [x for x in METRIC_MM if x < d - 1e-9]
+        return f"{smaller[-1]:.3f} mm" if smaller else None
+    return None
+
+
+def parse_target(text: str) -> tuple[str, float | None]:
+    """'8 ohm'/'6.2 kohm' -> resistance; '8000 turns' -> turns; 'fill' or 'fill 95 %' -> fill.
+
+    The fill value is a fraction of the usable height (0.95); None means fill to it.
+    """
+    t = text.strip()
+    m = re.fullmatch(r"(\d+(?:\.\d*)?)\s*(?:t|turns?)", t, re.IGNORECASE)
+    if m:
+        turns = float(m.group(1))
+        if turns < 1 or turns != int(turns):
+            raise InputError(f"{t!r}: a whole number of turns, 1 or more", where="target")
+        return "turns", turns
+    m = re.fullmatch(r"fill(?:\s+(\d+(?:\.\d*)?)\s*%)?", t, re.IGNORECASE)
+    if m:
+        if m.group(1) is None:
+            return "fill", None
+        frac = float(m.group(1)) / 100
+        if not 0 < frac <= 1:
+            raise InputError(f"{t!r}: fill between 1 and 100 % of the usable height",
+                             where="target")
+        return "fill", frac
+    try:
+        return "resistance", parse_resistance(t, where="target")
+    except InputError as err:
+        raise InputError(f"{t!r}: write a resistance ('6.2 kohm', '8 ohm'), a turn count "
+                         "('8000 turns') or 'fill' / 'fill 95 %'", where="target") from err
+
+
+def split_wire(text: str) -> tuple[str, str | None]:
+    """'43 AWG heavy' -> ('43 AWG', 'heavy'); '0.056 mm grade 2' -> ('0.056 mm', 'grade 2')."""
+    t = " ".join(text.split())
+    m = _INSULATION_RE.search(t)
+    if not m:
+        return t, None
+    return t[: m.start()].strip(), " ".join(m.group(1).lower().split())
+
+
+def target_text(target: Any) -> str:
+    kind, value = target.kind, target.value
+    if kind == "resistance" and value:
+        return format_si(float(value), "ohm")
+    if kind == "turns" and value:
+        return f"{value:,.0f} turns"
+    if kind == "fill":
+        return "fill the bobbin" if value is None else f"fill {float(value) * 100:g} %"
+    return f"{kind} {value}"
+
+
+def _mm(m: float, digits: int = 2) -> str:
+    return f"{m * 1e3:.{digits}f} mm"
+
+
+def _um(m: float) -> str:
+    return f"{m * 1e6:.1f} µm"
+
+
+class PlanScreen(Screen[None]):
+    """The coil's plan; keys re-plan with another target, wire or winding style."""
+
+    BINDINGS = [
+        Binding("t", "target", "Target"),
+        Binding("w", "wire", "Wire"),
+        Binding("minus", "thinner", "Thinner"),
+        Binding("plus,equals_sign", "thicker", "Thicker"),
+        Binding("s", "style", "Style"),
+        Binding("enter", "wind", "Wind"),
+        Binding("q", "app.quit", "Quit"),
+    ]
+
+    def __init__(self, coil: Any, planner: Planner, *,
+                 on_wind: Callable[[Any, Any, Any], None] | None = None,
+                 compare_span: int = 2):
+        super().__init__()
+        self.coil = coil
+        self.planner = planner
+        self.on_wind = on_wind
+        self.compare_span = compare_span
+        self.plan: Any = None
+        self.schedule: Any = None
+        self.message = ""
+
+    def compose(self) -> ComposeResult:
+        with Horizontal(id="plan-top"):
+            yield Static(id="plan-title")
+            yield Static(id="plan-hint")
+        with Horizontal(id="plan-body"):
+            with VerticalScroll(id="plan-left"):
+                with Vertical(id="inputs-panel", classes="panel") as p:
+                    p.border_title = "inputs"
+                    yield Static(id="inputs")
+                with Vertical(id="figures-panel", classes="panel") as p:
+                    p.border_title = "figures"
+                    yield Static(id="figures")
+                with Vertical(id="warnings-panel", classes="panel") as p:
+                    p.border_title = "warnings"
+                    yield Static(id="warnings")
+            with Vertical(id="plan-right"):
+                with Vertical(id="section-panel", classes="panel") as p:
+                    p.border_title = "window section"
+                    yield SectionView(id="plan-section")
+                with Vertical(id="gauges-panel", classes="panel") as p:
+                    p.border_title = "other gauges, same target"
+                    yield Static(id="gauges")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self.replan(self.coil)
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        if action == "wind":
+            return self.on_wind is not None
+        return True
+
+    # ----- planning
+    def replan(self, coil: Any) -> bool:
+        """Plan ``coil``; on success show it and keep it, else keep the last plan and say why."""
+        try:
+            plan = self.planner.make_plan(coil, force=True)
+            schedule = (self.planner.make_schedule(plan)
+                        if self.planner.make_schedule is not None else None)
+        except WinderError as err:
+            self.message = f"not re-planned: {err}"
+            self._show_message()
+            return False
+        self.coil, self.plan, self.schedule = coil, plan, schedule
+        self.message = ""
+        self._show()
+        return True
+
+    def compare(self) -> list[GaugeRow]:
+        """Plan the same target on the neighbouring sizes of the coil's wire."""
+        rows = []
+        wire = self.plan.wire
+        for size in neighbour_sizes(wire.size_name, self.compare_span):
+            if size == wire.size_name:
+                p = self.plan
+            else:
+                try:
+                    w = self.planner.make_wire(size, wire.insulation,
+                                               material=wire.material.name)
+                    p = self.planner.make_plan(dataclasses.replace(self.coil, wire=w),
+                                               force=True)
+                except WinderError as err:
+                    rows.append(GaugeRow(size, error=str(err)))
+                    continue
+            rows.append(GaugeRow(p.wire.name, p.turns, p.layers, p.fill, p.resistance_ohm,
+                                 p.wire_length_m, current=size == wire.size_name))
+        return rows
+
+    # ----- drawing
+    def _show_message(self) -> None:
+        hint = self.query_one("#plan-hint", Static)
+        hint.update(Text(self.message, "bold #ff8f5f") if self.message else self._hint())
+
+    def _hint(self) -> Text:
+        return Text("t target · w wire · -/+ gauge · s style" +
+                    (" · enter wind" if self.on_wind else ""), "#8a94a6")
+
+    def _show(self) -> None:
+        plan, coil, bobbin, wire = self.plan, self.coil, self.plan.bobbin, self.plan.wire
+        self.query_one("#plan-title", Static).update(Text.assemble(
+            ("winder ", "bold #5fd7af"), ("· plan · ", "#4a5263"), (coil.name, "bold")))
+        self._show_message()
+        t = Table.grid(padding=(0, 1))
+        t.add_column(style="#8a94a6", no_wrap=True)
+        t.add_column()
+        t.add_row("coil", Text(coil.name, "bold"))
+        if getattr(coil, "source", None):
+            t.add_row("file", str(coil.source))
+        t.add_row("bobbin", f"{bobbin.name}: {core_text(bobbin.core)}")
+        t.add_row("window", f"{_mm(bobbin.window_width_m, 1)} wide x "
+                            f"{_mm(bobbin.window_height_m)} high")
+        t.add_row("clearance", f"{_mm(bobbin.clearance_ends_m)} each end, "
+                               f"{_mm(bobbin.clearance_top_m)} at the rim")
+        t.add_row("wire", Text(wire.name, "bold"))
+        t.add_row("", f"bare {_um(wire.bare_m)} ± {_um(wire.bare_tol_m)}, "
+                      f"overall {_um(wire.od_m)} (max {_um(wire.od_max_m)}), "
+                      f"{wire.material.name}")
+        t.add_row("target", Text(target_text(coil.target), "bold #ffaf5f"))
+        style = coil.style
+        extra = ""
+        if style.kind == "scatter":
+            extra = f", packing {style.packing:g}" if style.packing else ", default packing"
+        t.add_row("style", Text(style.kind + extra, "bold"))
+        self.query_one("#inputs", Static).update(t)
+
+        f = Table.grid(padding=(0, 2))
+        f.add_column(style="#8a94a6", no_wrap=True)
+        f.add_column(justify="right", style="bold", no_wrap=True)
+        f.add_column(style="#8a94a6")
+        tpl = f"{plan.turns_per_layer} per layer" if plan.turns_per_layer else "scatter"
+        layers = plan.layers if isinstance(plan.layers, int) else f"{float(plan.layers):.1f}"
+        f.add_row("turns", f"{plan.turns:,}".replace(",", " "), tpl)
+        f.add_row("layers", str(layers), "")
+        f.add_row("build", _mm(plan.build_height_m),
+                  f"of {_mm(bobbin.usable_height_m)} usable")
+        fill_style = ("bold #ff5f5f" if plan.fill > 1 else
+                      "bold #d9a440" if plan.fill >= 0.9 else "bold #5fd7af")
+        f.add_row("fill", Text(f"{plan.fill * 100:.1f} %", fill_style), "of usable height")
+        f.add_row("wire length", f"{plan.wire_length_m:,.1f} m",
+                  f"{plan.mass_kg * 1e3:.1f} g")
+        lo, hi = plan.resistance_band_ohm
+        f.add_row("resistance", Text(format_si(plan.resistance_ohm, "ohm"), "bold #ffaf5f"),
+                  f"{format_si(lo, 'ohm', 3)} – {format_si(hi, 'ohm', 3)} at 20 °C")
+        if abs(plan.temp_c - 20.0) > 1e-9:
+            f.add_row("", format_si(plan.resistance_at_temp_ohm, "ohm"),
+                      f"at {plan.temp_c:g} °C")
+        if self.schedule is not None:
+            f.add_row("time", duration_text(self.schedule.est_time_s),
+                      f"{len(self.schedule.passes)} passes")
+        else:
+            f.add_row("time", "--", "no schedule")
+        self.query_one("#figures", Static).update(f)
+
+        warnings = list(plan.warnings)
+        if self.schedule is not None:
+            warnings += [w for w in self.schedule.warnings if w not in warnings]
+        self.query_one("#warnings", Static).update(
+            Text("\n".join(f"▲ {w}" for w in warnings), "#d9a440") if warnings
+            else Text("none", "#5fd7af"))
+        self.query_one(SectionView).show(bobbin, float(plan.build_height_m))
+        self._show_gauges()
+
+    def _show_gauges(self) -> None:
+        t = Table(box=None, padding=(0, 1), header_style="#8a94a6", expand=True)
+        for name, just in (("wire", "left"), ("turns", "right"), ("layers", "right"),
+                           ("fill", "right"), ("resistance", "right"), ("length", "right")):
+            t.add_column(name, justify=just, no_wrap=True)  # type: ignore[arg-type]
+        for r in self.compare():
+            if r.error:
+                t.add_row(r.wire, Text(r.error, "#ff8f5f"), "", "", "", "")
+                continue
+            style = "bold #5fd7af" if r.current else ""
+            fill = r.fill if r.fill is not None else math.nan
+            fill_style = "#ff5f5f" if fill > 1 else "#d9a440" if fill >= 0.9 else ""
+            layers = (f"{r.layers}" if isinstance(r.layers, int)
+                      else f"{float(r.layers or 0):.1f}")
+            t.add_row(Text(("▶ " if r.current else "  ") + r.wire, style),
+                      f"{r.turns:,}".replace(",", " "), layers,
+                      Text(f"{fill * 100:.0f} %", fill_style),
+                      format_si(r.resistance_ohm or 0.0, "ohm", 3),
+                      f"{r.length_m or 0:,.0f} m", style=style)
+        self.query_one("#gauges", Static).update(t)
+
+    # ----- actions
+    def action_target(self) -> None:
+        def done(result: object | None) -> None:
+            if result is None:
+                return
+            kind, value = result  # type: ignore[misc]
+            target = dataclasses.replace(self.coil.target, kind=kind, value=value)
+            self.replan(dataclasses.replace(self.coil, target=target))
+
+        self.app.push_screen(EntryDialog(
+            "Target", "A resistance ('6.2 kohm'), a turn count ('8000 turns') or 'fill':",
+            value=target_text(self.coil.target), parse=parse_target), done)
+
+    def _wire_from(self, text: str) -> Any:
+        size, insulation = split_wire(text)
+        return self.planner.make_wire(size, insulation or self.plan.wire.insulation,
+                                      material=self.plan.wire.material.name)
+
+    def action_wire(self) -> None:
+        def done(wire: object | None) -> None:
+            if wire is not None:
+                self.replan(dataclasses.replace(self.coil, wire=wire))
+
+        self.app.push_screen(EntryDialog(
+            "Wire", "Size and insulation, e.g. '43 AWG heavy' or '0.056 mm grade 2':",
+            value=self.plan.wire.name, parse=self._wire_from), done)
+
+    def _step(self, thicker: bool) -> None:
+        size = step_size(self.plan.wire.size_name, thicker)
+        if size is None:
+            self.message = "no further standard size that way"
+            self._show_message()
+            return
+        try:
+            wire = self._wire_from(f"{size} {self.plan.wire.insulation}")
+        except WinderError as err:
+            self.message = f"not re-planned: {err}"
+            self._show_message()
+            return
+        self.replan(dataclasses.replace(self.coil, wire=wire))
+
+    def action_thinner(self) -> None:
+        self._step(thicker=False)
+
+    def action_thicker(self) -> None:
+        self._step(thicker=True)
+
+    def action_style(self) -> None:
+        kind = self.coil.style.kind
+        nxt = STYLES[(STYLES.index(kind) + 1) % len(STYLES)] if kind in STYLES else STYLES[0]
+        self.replan(dataclasses.replace(self.coil,
+                                        style=dataclasses.replace(self.coil.style, kind=nxt)))
+
+    def action_wind(self) -> None:
+        if self.on_wind is None:
+            return
+        if self.plan.fill > 1.0:
+            self.message = "the build passes the usable height: change target, wire or style"
+            self._show_message()
+            return
+        self.on_wind(self.coil, self.plan, self.schedule)

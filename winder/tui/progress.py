@@ -1,0 +1,183 @@
+"""What the monitor shows, worked out from the plan, the schedule and the count.
+
+Pure functions and small dataclasses, no Textual: the monitor screen renders a
+:class:`Figures` made here at its refresh rate, and the tests check the
+arithmetic directly. Units: turns (float), ohms, metres, seconds, degC.
+
+Resistance so far comes from the plan's winding model at the turn count now,
+scaled by the calibration (measured / predicted at the latest reading, both at
+20 degC, the reading corrected with the wire's temperature coefficient), with
+the plan's tolerance band (from the bare-diameter tolerance) scaled alike.
+A session layer that keeps its own calibrated model can pass ``estimate``.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+FILL_WARN = 0.90   # fraction of usable height: warn (common practice, no source)
+FILL_STOP = 1.00   # at the usable height: the rim clearance is being eaten
+
+
+@dataclass(frozen=True)
+class Reading:
+    """A resistance measured during winding: at ``turns``, ``ohm`` at ``temp_c``."""
+
+    turns: float
+    ohm: float
+    temp_c: float = 20.0
+
+    def ohm_20(self, alpha_per_k: float) -> float:
+        """The reading corrected to 20 degC with the conductor's temperature coefficient."""
+        return self.ohm / (1.0 + alpha_per_k * (self.temp_c - 20.0))
+
+
+@dataclass(frozen=True)
+class Estimate:
+    """Resistance estimated at a turn count: ``ohm`` within ``lo``..``hi``, at 20 degC."""
+
+    ohm: float
+    lo: float
+    hi: float
+    calibrated: bool = False
+
+
+@dataclass
+class Figures:
+    """Everything the monitor panels show for one refresh."""
+
+    turns: float
+    planned_turns: float
+    fraction: float                 # turns / planned turns, 0..1+ (progress)
+    rpm: float
+    remaining_s: float | None       # time to the planned turns at the rate now (or scheduled)
+    pass_index: int | None          # 0-based, from the schedule
+    pass_count: int
+    direction: str | None           # "outward" | "homeward"
+    guide_mm: float | None          # where the wire should be now (schedule), mm from start flange
+    build_m: float                  # build height at the count now
+    fill: float                     # build / usable height
+    fill_level: str                 # "ok" | "warn" | "full"
+    estimate: Estimate
+    readings: list[Reading] = field(default_factory=list)
+
+
+def alpha_of(plan: Any) -> float:
+    """The wire's resistance temperature coefficient, 1/K (copper 0.00393 if unknown)."""
+    material = getattr(getattr(plan, "wire", None), "material", None)
+    # 0.00393 /K: annealed copper at 20 degC, IEC 60287-1-1 Table 1.
+    return float(getattr(material, "alpha_per_k", 0.00393))
+
+
+def predicted_ohm(plan: Any, turns: float | Sequence[float]) -> np.ndarray:
+    """The plan's model resistance at 20 degC for ``turns`` (vectorised), ohm."""
+    t = np.asarray(turns, dtype=float)
+    return np.asarray(plan.model.resistance_ohm(np.maximum(t, 0.0), 20.0), dtype=float)
+
+
+def band_ratios(plan: Any) -> tuple[float, float]:
+    """(low, high) of the plan's resistance band as fractions of its nominal resistance."""
+    nominal = float(plan.resistance_ohm)
+    lo, hi = plan.resistance_band_ohm
+    if nominal <= 0:
+        return 1.0, 1.0
+    return float(lo) / nominal, float(hi) / nominal
+
+
+def calibration_factor(plan: Any, readings: Sequence[Reading]) -> float | None:
+    """Measured / predicted resistance at 20 degC from the latest usable reading, or None."""
+    alpha = alpha_of(plan)
+    for r in reversed(readings):
+        if r.turns <= 0:
+            continue
+        pred = float(predicted_ohm(plan, r.turns))
+        if pred > 0:
+            return r.ohm_20(alpha) / pred
+    return None
+
+
+def estimate_at(plan: Any, turns: float, readings: Sequence[Reading] = ()) -> Estimate:
+    """Resistance at 20 degC after ``turns``, with its band, calibrated by ``readings``."""
+    nominal = float(predicted_ohm(plan, turns))
+    lo_r, hi_r = band_ratios(plan)
+    k = calibration_factor(plan, readings)
+    if k is None:
+        return Estimate(nominal, nominal * lo_r, nominal * hi_r, False)
+    # A reading measures the real wire, so the diameter tolerance no longer applies in
+    # full; keep a quarter of the band for reading error and wire variation along the
+    # spool (common practice, no source).
+    mid = nominal * k
+    return Estimate(mid, mid * (1 - (1 - lo_r) / 4), mid * (1 + (hi_r - 1) / 4), True)
+
+
+def fill_level(fill: float) -> str:
+    """'ok' below 90 % of usable height, 'warn' from 90 %, 'full' from 100 %."""
+    if fill >= FILL_STOP:
+        return "full"
+    if fill >= FILL_WARN:
+        return "warn"
+    return "ok"
+
+
+def remaining_seconds(turns: float, planned: float, rpm: float,
+                      schedule: Any | None = None) -> float | None:
+    """Seconds to the planned turns: at ``rpm`` if turning, else at the scheduled speeds."""
+    left = max(0.0, planned - turns)
+    if left == 0:
+        return 0.0
+    if rpm > 1.0:
+        return left / rpm * 60.0
+    if schedule is None:
+        return None
+    total = 0.0
+    for p in schedule.passes:
+        start = float(p.turns_end) - float(p.turns)
+        done_in_pass = min(max(turns - start, 0.0), float(p.turns))
+        todo = float(p.turns) - done_in_pass
+        if todo > 0 and p.rpm > 0:
+            total += todo / float(p.rpm) * 60.0
+    return total
+
+
+def figures(plan: Any, turns: float, rpm: float = 0.0, *, schedule: Any | None = None,
+            readings: Sequence[Reading] = (),
+            estimate: Callable[[float], Estimate] | None = None) -> Figures:
+    """Work out every monitor figure for a count of ``turns`` turning at ``rpm``."""
+    planned = float(plan.turns)
+    pass_index = direction = guide = None
+    count = 0
+    if schedule is not None and schedule.passes:
+        count = len(schedule.passes)
+        idx, pos = schedule.pass_at(max(0.0, turns))
+        pass_index = int(idx)
+        guide = float(pos)
+        direction = schedule.passes[min(pass_index, count - 1)].direction
+    build = float(np.asarray(plan.model.build_height_m(max(0.0, turns))))
+    usable = float(plan.bobbin.usable_height_m)
+    fill = build / usable if usable > 0 else math.inf
+    est = estimate(turns) if estimate is not None else estimate_at(plan, turns, readings)
+    return Figures(
+        turns=turns, planned_turns=planned,
+        fraction=turns / planned if planned > 0 else 0.0,
+        rpm=rpm, remaining_s=remaining_seconds(turns, planned, rpm, schedule),
+        pass_index=pass_index, pass_count=count, direction=direction, guide_mm=guide,
+        build_m=build, fill=fill, fill_level=fill_level(fill), estimate=est,
+        readings=list(readings),
+    )
+
+
+def duration_text(seconds: float | None) -> str:
+    """'1 h 02 min', '12 min 05 s', '42 s' or '--' for unknown."""
+    if seconds is None or not math.isfinite(seconds):
+        return "--"
+    s = int(round(seconds))
+    if s >= 3600:
+        return f"{s // 3600} h {s % 3600 // 60:02d} min"
+    if s >= 60:
+        return f"{s // 60} min {s % 60:02d} s"
+    return f"{s} s"
