@@ -26,7 +26,7 @@ from winder.link.messages import (
     StatusReport,
 )
 
-MAX_LINE = 128          # bytes, including the terminating LF
+MAX_LINE = 160          # bytes, including the terminating LF
 PROTOCOL_VERSION = 1
 HOST_VERBS = frozenset({"HI", "BEAT", "ZERO", "LOAD", "PASS", "GO", "HOLD", "HALT", "CLR", "MEAS"})
 _HEX = frozenset(b"0123456789ABCDEF")
@@ -72,7 +72,8 @@ def encode_device(kind: str, *fields, **kv) -> bytes:
 def encode_hello(h: Hello) -> bytes:
     return encode_device(
         "HELLO", proto=h.protocol, boot=h.boot_id, cpr=h.counts_per_rev,
-        caps=",".join(sorted(h.capabilities)) or "-", wrap=h.wrap, wdog_ms=h.watchdog_ms,
+        caps=",".join(sorted(h.capabilities)) or "-", bits=h.wrap.bit_length() - 1,
+        wdog_ms=h.watchdog_ms,
         qmax=h.queue_max, fw=h.firmware or "-", s=h.state,
     )
 
@@ -204,7 +205,7 @@ def parse_device_line(line: bytes, *, allow_plain: bool = False):
                 boot_id=kv["boot"],
                 counts_per_rev=_int(kv["cpr"], line, 1, 10**6),
                 capabilities=frozenset() if caps == "-" else frozenset(caps.split(",")),
-                wrap=_int(kv.get("wrap", str(2**32)), line, 2, 2**64),
+                wrap=2 ** _int(kv.get("bits", "32"), line, 4, 64),
                 watchdog_ms=_int(kv.get("wdog_ms", "1000"), line, 0, 10**6),
                 queue_max=_int(kv.get("qmax", "0"), line, 0, 65535),
                 firmware="" if kv.get("fw", "-") == "-" else kv["fw"],
