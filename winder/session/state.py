@@ -69,11 +69,14 @@ class SessionState:
         if (prev_t is not None and self.state == "running" and not self.link_down
                 and kind != "resumed"):
             self.winding_s += max(0.0, t - prev_t)
+        moves = kind not in ("started", "reading", "note", "target_changed", "torn_line") \
+            and isinstance(ev.get("turns"), (int, float))
+        if moves and kind != "resumed":  # resumed compares against the count before it
+            self.turns = float(ev["turns"])
         handler = getattr(self, f"_on_{kind}", None)
         if handler is not None:
             handler(ev, t)
-        if kind not in ("started", "reading", "note", "target_changed", "torn_line") \
-                and isinstance(ev.get("turns"), (int, float)):
+        if moves and kind == "resumed":
             self.turns = float(ev["turns"])
         self.last_t = t
         self.events += 1
