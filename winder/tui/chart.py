@@ -41,10 +41,18 @@ def nice_ceiling(value: float) -> float:
     return 10.0 ** (exp + 1)  # pragma: no cover - unreachable
 
 
+def round_up(value: float, digits: int = 2) -> float:
+    """``value`` rounded up to ``digits`` significant figures (axis ends): 8058 -> 8100."""
+    if value <= 0 or not math.isfinite(value):
+        return 1.0
+    step = 10 ** (math.floor(math.log10(value)) - digits + 1)
+    return math.ceil(value / step * (1 - 1e-12)) * step
+
+
 def _turns_text(value: float) -> str:
     if value >= 10_000:
-        return f"{value / 1000:g}k"
-    return f"{value:g}"
+        return f"{value / 1000:.4g}k"
+    return f"{value:.4g}"
 
 
 class _Canvas:
@@ -105,7 +113,7 @@ def resistance_chart(width: int, height: int, *, turns_max: float,
     xs, ys = list(curve[0]), list(curve[1])
     y_top = max([*ys, *(band[1] if band else []), *(r[1] for r in readings), 0.0])
     y_max = nice_ceiling(y_top * 1.02)
-    x_max = nice_ceiling(max(turns_max, *(r[0] for r in readings), 1.0))
+    x_max = round_up(max(turns_max, *(r[0] for r in readings), 1.0))
     sx = (2 * plot_w - 1) / x_max
     sy = (4 * plot_h - 1) / y_max
     cv = _Canvas(plot_w, plot_h)

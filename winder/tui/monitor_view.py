@@ -26,7 +26,7 @@ from textual.widgets import Digits, Footer, ProgressBar, RichLog, Static
 from winder.errors import WinderError
 from winder.tui.dialogs import CautionScreen, EntryDialog, ReadingDialog, ReadingEntry
 from winder.tui.feed import Batch, LogLine, Status, WindControl
-from winder.tui.progress import Figures, Reading, duration_text, figures
+from winder.tui.progress import Figures, Reading, band_text, duration_text, figures
 from winder.tui.widgets import ChartView, FillBar, GuideTrack, SectionView
 from winder.units import format_si
 
@@ -199,7 +199,7 @@ class MonitorScreen(Screen[None]):
         e = f.estimate
         lines = Text.assemble(
             ("now ", "#8a94a6"), (format_si(e.ohm, "ohm"), "bold #ffaf5f"),
-            (f"  ({format_si(e.lo, 'ohm', 3)} – {format_si(e.hi, 'ohm', 3)})", "#c0c6d0"),
+            (f"  ({band_text(e.lo, e.hi)})", "#c0c6d0"),
             (" at 20 °C", "#8a94a6"),
             ("  calibrated" if e.calibrated else "  from the plan", "#6fa8c8"),
             ("\ntarget ", "#8a94a6"), (format_si(float(self.plan.resistance_ohm), "ohm"), "bold"),

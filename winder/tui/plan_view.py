@@ -26,19 +26,12 @@ from textual.widgets import Footer, Static
 
 from winder.errors import InputError, WinderError
 from winder.tui.dialogs import EntryDialog
-from winder.tui.progress import duration_text
+from winder.tui.progress import band_text, duration_text
 from winder.tui.section import core_text
 from winder.tui.widgets import SectionView
 from winder.units import format_si, parse_resistance
 
 STYLES = ("layer", "orthocyclic", "scatter")
-_INSULATION_RE = re.compile(r"\s+(single|heavy|triple|quad|grade\s*[123])\s*$", re.IGNORECASE)
-_AWG_RE = re.compile(r"^\s*(\d{1,2})\s*AWG\s*$", re.IGNORECASE)
-_MM_RE = re.compile(r"^\s*(\d*\.?\d+)\s*mm\s*$", re.IGNORECASE)
-# Metric enamelled wire nominal diameters in mm, IEC 60317-0-1 (R20 series; from memory).
-METRIC_MM = (0.040, 0.045, 0.050, 0.056, 0.063, 0.071, 0.080, 0.090, 0.100, 0.112, 0.125,
-             0.140, 0.160, 0.180, 0.200, 0.224, 0.250, 0.280, 0.315, 0.355, 0.400, 0.450,
-             0.500, 0.560, 0.630, 0.710, 0.800, 0.900, 1.000)
 
 
 @dataclass(frozen=True)
@@ -79,46 +72,36 @@ class Planner:
         return cls(make_plan=make_plan, make_wire=make_wire, make_schedule=make_schedule)
 
 
+def _series(size_name: str) -> list[str]:
+    """The catalog series (thickest first) that ``size_name`` belongs to, or []."""
+    from winder.wire import awg_sizes, metric_sizes
+
+    for series in (awg_sizes(), metric_sizes()):
+        if size_name in series:
+            return series
+    return []
+
+
 def neighbour_sizes(size_name: str, span: int = 2) -> list[str]:
-    """The size names ``span`` steps either side of ``size_name`` ('42 AWG' or '0.063 mm')."""
-    m = _AWG_RE.match(size_name)
-    if m:
-        n = int(m.group(1))
-        return [f"{k} AWG" for k in range(n - span, n + span + 1) if 10 <= k <= 56]
-    m = _MM_RE.match(size_name)
-    if m:
-        d = float(m.group(1))
-        i = min(range(len(METRIC_MM)), key=lambda k: abs(METRIC_MM[k] - d))
-        out = [f"{METRIC_MM[k]:.3f} mm" for k in range(max(0, i - span),
-                                                       min(len(METRIC_MM), i + span + 1))]
-        if abs(METRIC_MM[i] - d) > 1e-9:
-            out.append(size_name)
-        return out
-    return [size_name]
+    """The catalog sizes ``span`` steps either side of ``size_name``, thickest first."""
+    series = _series(size_name)
+    if not series:
+        return [size_name]
+    i = series.index(size_name)
+    return series[max(0, i - span): i + span + 1]
 
 
 def step_size(size_name: str, thicker: bool) -> str | None:
-    """The next thicker or thinner standard size after ``size_name``, or None at the end."""
-    m = _AWG_RE.match(size_name)
-    if m:
-        n = int(m.group(1)) + (-1 if thicker else 1)
-        return f"{n} AWG" if 10 <= n <= 56 else None
-    m = _MM_RE.match(size_name)
-    if m:
-        d = float(m.group(1))
-        if thicker:
-            bigger = [x for x in METRIC_MM if x > d + 1e-9]
-            return f"{bigger[0]:.3f} mm" if bigger else None
-        smaller = [x for x in METRIC_MM if x < d - 1e-9]
-        return f"{smaller[-1]:.3f} mm" if smaller else None
-    return None
+    """The next thicker or thinner catalog size after ``size_name``, or None at the end."""
+    series = _series(size_name)
+    if not series:
+        return None
+    i = series.index(size_name) + (-1 if thicker else 1)
+    return series[i] if 0 <= i < len(series) else None
 
 
 def parse_target(text: str) -> tuple[str, float | None]:
-    """'8 ohm'/'6.2 kohm' -> resistance; '8000 turns' -> turns; 'fill' or 'fill 95 %' -> fill.
-
-    The fill value is a fraction of the usable height (0.95); None means fill to it.
-    """
+    """'8 ohm'/'6.2 kohm' -> resistance; '8000 turns' -> turns; 'fill' -> fill the bobbin."""
     t = text.strip()
     m = re.fullmatch(r"(\d+(?:\.\d*)?)\s*(?:t|turns?)", t, re.IGNORECASE)
     if m:
@@ -126,29 +109,13 @@ def parse_target(text: str) -> tuple[str, float | None]:
         if turns < 1 or turns != int(turns):
             raise InputError(f"{t!r}: a whole number of turns, 1 or more", where="target")
         return "turns", turns
-    m = re.fullmatch(r"fill(?:\s+(\d+(?:\.\d*)?)\s*%)?", t, re.IGNORECASE)
-    if m:
-        if m.group(1) is None:
-            return "fill", None
-        frac = float(m.group(1)) / 100
-        if not 0 < frac <= 1:
-            raise InputError(f"{t!r}: fill between 1 and 100 % of the usable height",
-                             where="target")
-        return "fill", frac
+    if t.lower() in ("fill", "full"):
+        return "fill", None
     try:
         return "resistance", parse_resistance(t, where="target")
     except InputError as err:
         raise InputError(f"{t!r}: write a resistance ('6.2 kohm', '8 ohm'), a turn count "
-                         "('8000 turns') or 'fill' / 'fill 95 %'", where="target") from err
-
-
-def split_wire(text: str) -> tuple[str, str | None]:
-    """'43 AWG heavy' -> ('43 AWG', 'heavy'); '0.056 mm grade 2' -> ('0.056 mm', 'grade 2')."""
-    t = " ".join(text.split())
-    m = _INSULATION_RE.search(t)
-    if not m:
-        return t, None
-    return t[: m.start()].strip(), " ".join(m.group(1).lower().split())
+                         "('8000 turns') or 'fill'", where="target") from err
 
 
 def target_text(target: Any) -> str:
@@ -158,7 +125,7 @@ def target_text(target: Any) -> str:
     if kind == "turns" and value:
         return f"{value:,.0f} turns"
     if kind == "fill":
-        return "fill the bobbin" if value is None else f"fill {float(value) * 100:g} %"
+        return "fill"
     return f"{kind} {value}"
 
 
@@ -194,6 +161,7 @@ class PlanScreen(Screen[None]):
         self.plan: Any = None
         self.schedule: Any = None
         self.message = ""
+        self.compare_rows: list[GaugeRow] = []
 
     def compose(self) -> ComposeResult:
         with Horizontal(id="plan-top"):
@@ -215,8 +183,9 @@ class PlanScreen(Screen[None]):
                     p.border_title = "window section"
                     yield SectionView(id="plan-section")
                 with Vertical(id="gauges-panel", classes="panel") as p:
-                    p.border_title = "other gauges, same target"
+                    p.border_title = "gauge comparison"
                     yield Static(id="gauges")
+                    yield Static(id="gauges-note")
         yield Footer()
 
     def on_mount(self) -> None:
@@ -257,20 +226,18 @@ class PlanScreen(Screen[None]):
                     p = self.planner.make_plan(dataclasses.replace(self.coil, wire=w),
                                                force=True)
                 except WinderError as err:
-                    rows.append(GaugeRow(size, error=str(err)))
+                    rows.append(GaugeRow(size, error=err.message if isinstance(err, InputError)
+                                         else str(err)))
                     continue
-            rows.append(GaugeRow(p.wire.name, p.turns, p.layers, p.fill, p.resistance_ohm,
+            rows.append(GaugeRow(p.wire.size_name, p.turns, p.layers, p.fill, p.resistance_ohm,
                                  p.wire_length_m, current=size == wire.size_name))
+        self.compare_rows = rows
         return rows
 
     # ----- drawing
     def _show_message(self) -> None:
         hint = self.query_one("#plan-hint", Static)
-        hint.update(Text(self.message, "bold #ff8f5f") if self.message else self._hint())
-
-    def _hint(self) -> Text:
-        return Text("t target · w wire · -/+ gauge · s style" +
-                    (" · enter wind" if self.on_wind else ""), "#8a94a6")
+        hint.update(Text(self.message, "bold #ff8f5f") if self.message else "")
 
     def _show(self) -> None:
         plan, coil, bobbin, wire = self.plan, self.coil, self.plan.bobbin, self.plan.wire
@@ -313,11 +280,11 @@ class PlanScreen(Screen[None]):
         fill_style = ("bold #ff5f5f" if plan.fill > 1 else
                       "bold #d9a440" if plan.fill >= 0.9 else "bold #5fd7af")
         f.add_row("fill", Text(f"{plan.fill * 100:.1f} %", fill_style), "of usable height")
-        f.add_row("wire length", f"{plan.wire_length_m:,.1f} m",
-                  f"{plan.mass_kg * 1e3:.1f} g")
+        f.add_row("wire length", f"{plan.wire_length_m:,.1f} m".replace(",", " "),
+                  f"{plan.mass_kg * 1e3:.1f} g of wire")
         lo, hi = plan.resistance_band_ohm
         f.add_row("resistance", Text(format_si(plan.resistance_ohm, "ohm"), "bold #ffaf5f"),
-                  f"{format_si(lo, 'ohm', 3)} – {format_si(hi, 'ohm', 3)} at 20 °C")
+                  f"{band_text(lo, hi)} at 20 °C")
         if abs(plan.temp_c - 20.0) > 1e-9:
             f.add_row("", format_si(plan.resistance_at_temp_ohm, "ohm"),
                       f"at {plan.temp_c:g} °C")
@@ -350,13 +317,18 @@ class PlanScreen(Screen[None]):
             fill = r.fill if r.fill is not None else math.nan
             fill_style = "#ff5f5f" if fill > 1 else "#d9a440" if fill >= 0.9 else ""
             layers = (f"{r.layers}" if isinstance(r.layers, int)
-                      else f"{float(r.layers or 0):.1f}")
+                      else f"{float(r.layers or 0):.0f}")
             t.add_row(Text(("▶ " if r.current else "  ") + r.wire, style),
                       f"{r.turns:,}".replace(",", " "), layers,
                       Text(f"{fill * 100:.0f} %", fill_style),
                       format_si(r.resistance_ohm or 0.0, "ohm", 3),
-                      f"{r.length_m or 0:,.0f} m", style=style)
+                      f"{r.length_m or 0:,.0f} m".replace(",", " "), style=style)
         self.query_one("#gauges", Static).update(t)
+        over = [r for r in self.compare_rows if r.fill is not None and r.fill > 1]
+        note = ("  over 100 % does not fit the usable height" if over else "")
+        self.query_one("#gauges-note", Static).update(Text(
+            f"same target, same insulation ({self.plan.wire.insulation}), "
+            f"{self.coil.style.kind} winding{note}", "#8a94a6"))
 
     # ----- actions
     def action_target(self) -> None:
@@ -372,7 +344,9 @@ class PlanScreen(Screen[None]):
             value=target_text(self.coil.target), parse=parse_target), done)
 
     def _wire_from(self, text: str) -> Any:
-        size, insulation = split_wire(text)
+        from winder.wire import parse_wire
+
+        size, insulation = parse_wire(text)
         return self.planner.make_wire(size, insulation or self.plan.wire.insulation,
                                       material=self.plan.wire.material.name)
 

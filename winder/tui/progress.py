@@ -5,10 +5,11 @@ Pure functions and small dataclasses, no Textual: the monitor screen renders a
 arithmetic directly. Units: turns (float), ohms, metres, seconds, degC.
 
 Resistance so far comes from the plan's winding model at the turn count now,
-scaled by the calibration (measured / predicted at the latest reading, both at
-20 degC, the reading corrected with the wire's temperature coefficient), with
-the plan's tolerance band (from the bare-diameter tolerance) scaled alike.
-A session layer that keeps its own calibrated model can pass ``estimate``.
+scaled by the calibration: the ratio k of measured to predicted resistance at
+20 degC (the session layer's weighted estimator over the readings, each
+corrected with the wire's temperature coefficient). Before any reading the band
+is the plan's (bare-diameter tolerance); after, k +/- 2 standard errors.
+A caller with its own calibrated model can pass ``estimate``.
 """
 
 from __future__ import annotations
@@ -89,30 +90,40 @@ def band_ratios(plan: Any) -> tuple[float, float]:
     return float(lo) / nominal, float(hi) / nominal
 
 
-def calibration_factor(plan: Any, readings: Sequence[Reading]) -> float | None:
-    """Measured / predicted resistance at 20 degC from the latest usable reading, or None."""
+def calibration(plan: Any, readings: Sequence[Reading]) -> tuple[float, float] | None:
+    """(k, standard error of k): measured / predicted at 20 degC from the readings, or None.
+
+    The session layer's weighted least-squares estimator
+    (:class:`winder.session.calibration.Calibrator`), on the plan's model.
+    """
+    from winder.session.calibration import Calibrator
+    from winder.session.calibration import Reading as CalReading
+
     alpha = alpha_of(plan)
-    for r in reversed(readings):
-        if r.turns <= 0:
-            continue
-        pred = float(predicted_ohm(plan, r.turns))
-        if pred > 0:
-            return r.ohm_20(alpha) / pred
-    return None
+    cal = Calibrator(lambda n: float(predicted_ohm(plan, n)))
+    # The calibrator corrects to 20 degC with copper's coefficient; pass readings already
+    # corrected with the wire's own (the same for copper, right for aluminium).
+    rows = [CalReading(r.turns, r.ohm_20(alpha), 20.0) for r in readings]
+    got = cal.ratio(rows)
+    if got is None:
+        return None
+    k, std, _used = got
+    return k, std
 
 
 def estimate_at(plan: Any, turns: float, readings: Sequence[Reading] = ()) -> Estimate:
-    """Resistance at 20 degC after ``turns``, with its band, calibrated by ``readings``."""
+    """Resistance at 20 degC after ``turns``, with its band, calibrated by ``readings``.
+
+    Without readings the band is the plan's (from the bare-diameter tolerance);
+    with readings it is k +/- 2 standard errors of k (about 95 %).
+    """
     nominal = float(predicted_ohm(plan, turns))
     lo_r, hi_r = band_ratios(plan)
-    k = calibration_factor(plan, readings)
-    if k is None:
+    cal = calibration(plan, readings)
+    if cal is None:
         return Estimate(nominal, nominal * lo_r, nominal * hi_r, False)
-    # A reading measures the real wire, so the diameter tolerance no longer applies in
-    # full; keep a quarter of the band for reading error and wire variation along the
-    # spool (common practice, no source).
-    mid = nominal * k
-    return Estimate(mid, mid * (1 - (1 - lo_r) / 4), mid * (1 + (hi_r - 1) / 4), True)
+    k, std = cal
+    return Estimate(nominal * k, nominal * (k - 2 * std), nominal * (k + 2 * std), True)
 
 
 def fill_level(fill: float) -> str:
@@ -169,6 +180,17 @@ def figures(plan: Any, turns: float, rpm: float = 0.0, *, schedule: Any | None =
         build_m=build, fill=fill, fill_level=fill_level(fill), estimate=est,
         readings=list(readings),
     )
+
+
+def band_text(lo: float, hi: float, unit: str = "ohm", digits: int = 3) -> str:
+    """'7.21–8.46 kohm' (one prefix when both ends share it) or '980 ohm–1.02 kohm'."""
+    from winder.units import format_si
+
+    a, b = format_si(lo, unit, digits), format_si(hi, unit, digits)
+    ua, ub = a.split(" ", 1)[1], b.split(" ", 1)[1]
+    if ua == ub:
+        return f"{a.split(' ', 1)[0]}–{b}"
+    return f"{a}–{b}"
 
 
 def duration_text(seconds: float | None) -> str:

@@ -4,8 +4,8 @@ One half of the window is drawn, the way a coil is sectioned on a drawing: the
 core along the bottom, the two flanges as walls left and right, the end
 clearances shaded beside each flange, the top clearance below the rim shaded
 across, a dashed line at the usable height, and the build growing up from the
-core. The planned build is drawn in a light tone and the build wound so far
-(monitor) in a solid one, both to 1/8 of a character row.
+core. The planned build is drawn shaded (its top to 1/8 of a row) and the build
+wound so far (monitor) solid, to 1/8 of a row.
 
 All lengths come in metres (the bobbin's SI floats); labels are millimetres.
 Pure function of its inputs: no terminal or Textual state.
@@ -25,7 +25,7 @@ STYLE_FLANGE = "bold #8a94a6"
 STYLE_CORE = "#8a94a6"
 STYLE_CLEAR = "#4a5263"
 STYLE_USABLE = "#d9a440"
-COLOUR_PLANNED = "#2f5f7a"
+COLOUR_PLANNED = "#4f8fb0"
 COLOUR_WOUND = "#5fd7af"
 COLOUR_OVER = "#c43c3c"
 STYLE_PLANNED = "#6fa8c8"
@@ -113,10 +113,9 @@ def window_section(bobbin: Any, planned_m: float, wound_m: float | None = None, 
             elif r == usable_row:
                 ch, fg = "┄", STYLE_USABLE
             high = lo >= usable_h - row_h * 1e-6           # row at or above the usable line
-            bg = ""
             planned_level = (planned_m - lo) / row_h
             if planned_level >= 1:
-                bg = COLOUR_OVER if high else COLOUR_PLANNED
+                ch, fg = "▒", COLOUR_OVER if high else COLOUR_PLANNED
             elif planned_level >= 1 / 16:
                 ch, fg = _fill_cell(planned_level), COLOUR_OVER if high else COLOUR_PLANNED
             if wound_m is not None:
@@ -124,7 +123,7 @@ def window_section(bobbin: Any, planned_m: float, wound_m: float | None = None, 
                 if wound_level >= 1 / 16:
                     ch = _fill_cell(min(1.0, wound_level))
                     fg = "bold " + (COLOUR_OVER if high else COLOUR_WOUND)
-            out.append(ch, f"{fg} on {bg}".strip() if bg else fg)
+            out.append(ch, fg)
         out.append("▌", STYLE_FLANGE)
         text, style = labels.get(r, ("", ""))
         out.append(text[:LABEL_WIDTH].ljust(LABEL_WIDTH), style)
