@@ -38,7 +38,9 @@ def to_yaml(schedule: Schedule) -> str:
     """The schedule as YAML (the same object as the JSON)."""
     import yaml
 
-    return yaml.safe_dump(schedule_dict(schedule), sort_keys=False, default_flow_style=None)
+    dumper = getattr(yaml, "CSafeDumper", yaml.SafeDumper)   # the C emitter when built
+    return yaml.dump(schedule_dict(schedule), Dumper=dumper, sort_keys=False,
+                     default_flow_style=None)
 
 
 def to_csv(schedule: Schedule) -> str:
