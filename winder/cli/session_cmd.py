@@ -12,8 +12,57 @@ import sys
 
 from winder.errors import InputError
 
+CAUTION = ("caution: the spindle will turn. Keep hair, sleeves and fingers clear of the "
+           "spindle and guide, wear eye protection, keep a hardware stop within reach. "
+           "Ctrl-C stops the motor.")
+
+KEYS_HELP = ("keys (type + Enter): p pause, c continue, r OHM [TEMP] reading (e.g. "
+             "'r 812.4 ohm 23 C'), n TEXT note, b wire break, s splice, a [TURNS] accept the "
+             "proposed stop point, k TURNS correct the count, q stop (resumable), x abort")
+
+
+def _add_wind_options(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--headless", action="store_true",
+                   help="no terminal UI: progress lines on stdout, keys on stdin")
+    p.add_argument("--stop-at-resistance", action="store_true",
+                   help="measure as the coil grows and move the stop point to reach the "
+                        "target resistance (needs a device that measures resistance)")
+    p.add_argument("--auto-continue", action="store_true",
+                   help="carry on by itself after a link loss or device restart "
+                        "(unattended runs; by default winder waits for 'c')")
+    p.add_argument("--quiet", action="store_true", help="fewer progress lines")
+
 
 def register(sub: argparse._SubParsersAction) -> None:
+    w = sub.add_parser("wind", help="wind a coil on a connected winder",
+                       description="Wind a coil: plan it, freeze the plan and schedule into a "
+                       "new session, and drive (or follow) the winder on PORT, journaling "
+                       "every step so the session can be resumed after any interruption.")
+    w.add_argument("coil", metavar="COIL.yaml", help="coil profile")
+    w.add_argument("--port", required=True, metavar="PORT",
+                   help="serial port or pyserial URL of the winder (e.g. /dev/ttyUSB0)")
+    w.add_argument("--session", metavar="DIR",
+                   help="session directory (default: a new one under the data directory)")
+    w.add_argument("--machine", metavar="FILE", help="machine profile (YAML)")
+    _add_wind_options(w)
+    w.set_defaults(func=cmd_wind)
+
+    r = sub.add_parser("resume", help="resume an interrupted winding session",
+                       description="Resume a session: rebuild its state from the journal, "
+                       "reconnect, reconcile the count with the device and continue the "
+                       "schedule from the right pass and guide position.")
+    r.add_argument("session", metavar="SESSION", help="session directory or id")
+    r.add_argument("--port", metavar="PORT", help="serial port (default: the one it used)")
+    r.add_argument("--reading", metavar="OHM",
+                   help="a fresh resistance reading of the coil (e.g. '812.4 ohm') to check "
+                        "or correct the count after a device restart")
+    r.add_argument("--temp", metavar="TEMP", help="ambient temperature of that reading "
+                   "(e.g. '23 C'; default 20 C)")
+    r.add_argument("--accept-correction", action="store_true",
+                   help="set the count from the reading when the device restarted")
+    _add_wind_options(r)
+    r.set_defaults(func=cmd_resume)
+
     p = sub.add_parser("report", help="report of one winding session",
                        description="Report of a winding session: coil, plan, turns wound, "
                        "readings, final against predicted resistance, duration, "
@@ -106,3 +155,244 @@ def cmd_history(args: argparse.Namespace) -> int:
             print(f"  {p['a']}  {fmt_ohm(p['a_ohm'])}  <->  {p['b']}  {fmt_ohm(p['b_ohm'])}"
                   f"  ({p['difference_percent']:.2f} %)")
     return 0
+
+
+# ---- wind and resume ---------------------------------------------------------------------
+
+def _open_link(port: str, events):
+    from winder.link import WinderLink
+
+    link = WinderLink(port, events=events)
+    link.open()
+    return link
+
+
+def _need_headless(args: argparse.Namespace) -> None:
+    if not args.headless:
+        raise InputError("the terminal monitor for winding is not available in this build; "
+                         "add --headless", where="--headless")
+
+
+def cmd_wind(args: argparse.Namespace) -> int:
+    import queue
+
+    from winder.session.prepare import machine_for, prepare, started_fields
+    from winder.session.runner import Runner
+    from winder.session.session import Session
+
+    _need_headless(args)
+    events: queue.Queue = queue.Queue(maxsize=10000)
+    link = _open_link(args.port, events)
+    sess = None
+    try:
+        info = link.info
+        machine = machine_for(args.machine, info.capabilities, info.counts_per_rev)
+        prep = prepare(args.coil, machine)
+        sess = Session.create(coil_name=prep.coil.name, coil_yaml=prep.coil_yaml,
+                              plan=prep.plan.to_dict(), schedule=prep.schedule.to_dict(),
+                              started=started_fields(prep, info.to_dict()),
+                              session_dir=args.session)
+        runner = Runner(sess, link, schedule=prep.schedule, machine=machine,
+                        stop_at_resistance=args.stop_at_resistance,
+                        auto_continue=args.auto_continue, events=events,
+                        on_update=_printer(args.quiet))
+        print(f"session {sess.id}  ({sess.path})", flush=True)
+        print(f"coil {prep.coil.name}: {prep.plan.turns} turns planned, "
+              f"{_fmt_ohm(prep.plan.resistance_ohm)} at 20 C, "
+              f"{len(prep.schedule.passes)} passes on {machine.name}", flush=True)
+        if runner.motor:
+            print(CAUTION, flush=True)
+        print(KEYS_HELP, flush=True)
+        runner.start()
+        return _loop(runner, sess)
+    finally:
+        link.close()
+        if sess is not None:
+            sess.close()
+
+
+def cmd_resume(args: argparse.Namespace) -> int:
+    import queue
+
+    from winder.session.calibration import Reading
+    from winder.session.runner import Runner
+    from winder.session.session import Session
+    from winder.units import parse_resistance, parse_temperature
+
+    _need_headless(args)
+    reading = None
+    if args.reading:
+        ohm = parse_resistance(args.reading, where="--reading")
+        temp = parse_temperature(args.temp, where="--temp") if args.temp else None
+        reading = Reading(0.0, ohm, temp, "at resume")
+    sess = Session.open(args.session, writable=True)
+    link = None
+    try:
+        st = sess.state
+        if st.state in ("finished", "aborted"):
+            raise InputError(f"session {sess.id} is already {st.state}; see `winder report "
+                             f"{sess.id}`", where="SESSION")
+        port = args.port or st.device.get("url")
+        if not port:
+            raise InputError("give --port (the session does not know its port)",
+                             where="--port")
+        sched = sess.schedule()
+        schedule = machine = None
+        if sched:
+            from winder.schedule import Schedule
+
+            schedule = Schedule.from_dict(sched)
+            machine = schedule.machine
+        events: queue.Queue = queue.Queue(maxsize=10000)
+        link = _open_link(port, events)
+        runner = Runner(sess, link, schedule=schedule, machine=machine,
+                        stop_at_resistance=args.stop_at_resistance,
+                        auto_continue=args.auto_continue, events=events,
+                        on_update=_printer(args.quiet))
+        print(f"resuming {sess.id} at {st.turns:g} of {st.stop_turns:g} turns "
+              f"(journal state {sess.effective_state()})", flush=True)
+        if sess.torn is not None:
+            print(f"note: {sess.torn.describe()}", flush=True)
+        if reading is None and (link.info.boot_id or "") != (st.boot_id or "") \
+                and runner.can_measure:
+            ohm = runner.measure_now()
+            if ohm is not None:
+                reading = Reading(0.0, ohm, None, "device reading at resume")
+        if reading is not None:
+            reading = Reading(st.turns, reading.ohm, reading.temp_c, reading.note)
+        if runner.motor:
+            print(CAUTION, flush=True)
+        rec = runner.resume(reading, accept_correction=args.accept_correction)
+        if rec.suggested_turns is not None and not rec.same_boot and not args.accept_correction:
+            print(f"the reading suggests {rec.suggested_turns:.0f} +/- "
+                  f"{rec.suggested_pm:.0f} turns; type 'k {rec.suggested_turns:.0f}' to "
+                  "correct the count, or resume with --accept-correction", flush=True)
+        print(KEYS_HELP, flush=True)
+        return _loop(runner, sess)
+    finally:
+        if link is not None:
+            link.close()
+        sess.close()
+
+
+def _fmt_ohm(x: float) -> str:
+    from winder.session.report import fmt_ohm
+
+    return fmt_ohm(x)
+
+
+def _printer(quiet: bool):
+    import time as _time
+
+    last = [0.0]
+
+    def show(u) -> None:
+        if u.kind == "progress":
+            now = _time.monotonic()
+            if now - last[0] < (5.0 if quiet else 1.0):
+                return
+            last[0] = now
+        prefix = {"warn": "warning: ", "error": "error: "}.get(u.kind, "")
+        print(prefix + u.text, flush=True)
+
+    return show
+
+
+def _loop(runner, sess) -> int:
+    """Poll the runner; keys from stdin; SIGINT/SIGTERM stop the motor and exit."""
+    import signal
+    import threading
+
+    from winder.session.report import build_report, format_text
+
+    got: list[int] = []
+
+    def on_signal(signum, frame) -> None:
+        got.append(signum)
+
+    old = {s: signal.signal(s, on_signal) for s in (signal.SIGINT, signal.SIGTERM)}
+    stdin_thread = threading.Thread(target=_read_keys, args=(runner,), daemon=True,
+                                    name="winder-keys")
+    stdin_thread.start()
+    try:
+        while not got and runner.poll(0.1):
+            pass
+        if got:
+            name = signal.Signals(got[0]).name
+            runner.halt(f"signal {name}")
+            print(f"stopped by {name}: motor stopped, {runner.turns:g} turns journaled. "
+                  f"Resume with: winder resume {sess.path} --headless", flush=True)
+            return 128 + got[0]
+        if sess.state.state == "paused":   # 'q'
+            print(f"Resume with: winder resume {sess.path} --headless", flush=True)
+            return 0
+    finally:
+        for s, h in old.items():
+            signal.signal(s, h)
+    print(format_text(build_report(sess, live=True)), flush=True)
+    return 0 if sess.state.state == "finished" else 1
+
+
+def _read_keys(runner) -> None:
+    import sys as _sys
+
+    stream = _sys.stdin
+    if stream is None:
+        return
+    for line in stream:
+        try:
+            handle_key(runner, line)
+        except InputError as err:
+            print(f"winder: {err}", flush=True)
+
+
+def handle_key(runner, line: str) -> None:
+    """One typed command (see KEYS_HELP) to a runner action."""
+    from winder.units import parse_resistance, parse_temperature
+
+    text = line.strip()
+    if not text:
+        return
+    cmd, _, rest = text.partition(" ")
+    rest = rest.strip()
+    cmd = cmd.lower()
+    if cmd in ("p", "pause"):
+        runner.pause()
+    elif cmd in ("c", "continue"):
+        runner.cont()
+    elif cmd in ("r", "reading"):
+        ohm_text, temp_text = split_reading(rest)
+        ohm = parse_resistance(ohm_text, where="reading")
+        temp = parse_temperature(temp_text, where="reading") if temp_text else None
+        runner.reading(ohm, temp)
+    elif cmd in ("n", "note"):
+        runner.note(rest)
+    elif cmd in ("b", "break"):
+        runner.wire_break(rest)
+    elif cmd in ("s", "splice"):
+        runner.splice(rest)
+    elif cmd in ("a", "accept"):
+        runner.accept_stop(float(rest) if rest else None)
+    elif cmd in ("k", "count"):
+        try:
+            runner.correct_count(float(rest), "user")
+        except ValueError:
+            raise InputError("k needs a turn count, e.g. 'k 1234'", where="keys") from None
+    elif cmd in ("q", "quit", "stop"):
+        runner.stop("quit")
+    elif cmd in ("x", "abort"):
+        runner.abort("user")
+    else:
+        raise InputError(f"unknown key {cmd!r}; {KEYS_HELP}", where="keys")
+
+
+def split_reading(text: str) -> tuple[str, str | None]:
+    """'812.4 ohm 23 C' -> ('812.4 ohm', '23 C'); '6.2 kohm' -> ('6.2 kohm', None)."""
+    import re
+
+    m = re.match(r"^\s*([-+0-9.eE]+\s*[A-Za-z\u03a9]+)\s*(?:@|at)?\s*(.*)$", text)
+    if not m:
+        raise InputError(f"expected a reading like '812.4 ohm 23 C', got {text!r}",
+                         where="reading")
+    temp = m.group(2).strip() or None
+    return m.group(1), temp

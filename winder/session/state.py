@@ -119,7 +119,7 @@ class SessionState:
         self.rpm = 0.0
         if reason.startswith("signal") or reason in ("quit", "host"):
             self._open("host_stopped", t, reason=reason)
-        elif reason not in ("user", "pedal", "reading"):
+        elif reason not in ("user", "pedal", "reading", "link"):
             self._open("fault", t, reason=reason)
 
     def _on_continued(self, ev, t):
