@@ -28,6 +28,8 @@ def test_layer_hand_case():
     # Build: top of the highest started layer, 1 mm per layer (OD stacking).
     assert [p.build_mm_end for p in s.passes] == pytest.approx([1.0, 2.0, 3.0])
     assert s.seed is None and s.total_turns == 20
+    assert s.passes[1].guidance() == ("pass 1: homeward over the next 9 turns, 9.50 to 0.50 mm "
+                                      "(1 mm per turn)")
 
 
 def test_orthocyclic_hand_case():

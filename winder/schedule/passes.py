@@ -57,6 +57,14 @@ class Pass:
         """Cumulative turns at the start of the pass."""
         return self.turns_end - self.turns
 
+    def guidance(self) -> str:
+        """One line for someone guiding the wire by hand.
+
+        E.g. 'pass 3: outward over the next 38 turns, 0.50 to 9.50 mm (0.237 mm per turn)'.
+        """
+        return (f"pass {self.index}: {self.direction} over the next {self.turns:g} turns, "
+                f"{self.start_mm:.2f} to {self.end_mm:.2f} mm ({self.pitch_mm:.3g} mm per turn)")
+
     def position_at(self, turns: float) -> float:
         """Guide position (mm) after ``turns`` cumulative turns, clamped to this pass."""
         if self.turns <= 0:
