@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import logging
 import queue
+import random
 import threading
 import time
 from collections.abc import Callable
@@ -116,7 +117,7 @@ class WinderLink:
         self._cmd_lock = threading.Lock()
         self._cond = threading.Condition()
         self._pending: _Pending | None = None
-        self._seq = 0
+        self._seq = random.randrange(1, 65535)   # a fresh host never reuses a stale number
         self._last_valid = 0.0
         self._stop = threading.Event()
         self._thread: threading.Thread | None = None

@@ -146,8 +146,10 @@ class SimDevice:
             return []                     # bad CRC or syntax: dropped, host retries
         self.last_host = now              # any valid line feeds the watchdog
         if cmd.seq == 0:
-            return [] if cmd.verb == "BEAT" else []
-        if cmd.seq in self.replies:       # repeated sequence number: same answer, no action
+            return []                     # unacknowledged: heartbeat only
+        if cmd.verb == "HI":              # a new host session: forget remembered replies
+            self.replies.clear()
+        elif cmd.seq in self.replies:       # repeated sequence number: same answer, no action
             return [self.replies[cmd.seq]]
         out, reply = self._execute(cmd.verb, cmd.args)
         reply_line = (encode_device("ACK", cmd.seq) if reply == "ACK"
@@ -525,6 +527,13 @@ class SimServer:
             if cmd == "factor":
                 dev.resistance_factor = num()
                 return {"ok": True, "cmd": "factor", "factor": dev.resistance_factor}
+            if cmd == "inject":
+                raw = bytes.fromhex("".join(args))
+                if self.master is not None:
+                    os.write(self.master, raw)
+                elif self.client is not None:
+                    self.client.sendall(raw)
+                return {"ok": True, "cmd": "inject", "bytes": len(raw)}
             if cmd == "quit":
                 self.running = False
                 return {"ok": True, "cmd": "quit"}
@@ -624,6 +633,7 @@ class SimServer:
 CONTROL_COMMANDS = [
     "truth", "drop SECONDS", "reboot [BOOT_SECONDS]", "corrupt FRACTION", "stall",
     "estop", "limit", "pedal [down|up]", "reading", "crank RPM", "speedup K", "factor F",
+    "inject HEX",
     "help", "quit",
 ]
 
