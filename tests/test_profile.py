@@ -148,3 +148,20 @@ def test_unsafe_yaml_and_size_limit(tmp_path):
         load_coil(tmp_path / "nope.yaml")
     with pytest.raises(InputError):
         load_coil(write(tmp_path, "bad.yaml", "name: [\n"))
+
+
+def test_examples_dir_in_a_regular_install(tmp_path):
+    # a regular install ships profiles/ as the package winder.examples
+    import os
+    import shutil
+    import subprocess
+    import sys
+
+    shutil.copytree(ROOT / "winder", tmp_path / "winder",
+                    ignore=shutil.ignore_patterns("__pycache__"))
+    shutil.copytree(ROOT / "profiles", tmp_path / "winder" / "examples")
+    code = "from winder.profile import examples_dir; print(examples_dir())"
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                       cwd=tmp_path, env={**os.environ, "PYTHONPATH": str(tmp_path)}, timeout=60)
+    assert r.returncode == 0, r.stderr
+    assert Path(r.stdout.strip()) == tmp_path / "winder" / "examples"
