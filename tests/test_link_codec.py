@@ -242,3 +242,18 @@ def test_sealed_garbage_past_the_crc_raises_only_frame_errors(kind, rest):
     except FrameError:
         return
     assert msg is not None
+
+
+def _crc_bitwise(data: bytes) -> int:
+    """The bit-at-a-time loop printed in firmware-protocol.md, transcribed."""
+    crc = 0xFFFF
+    for b in data:
+        crc ^= b << 8
+        for _ in range(8):
+            crc = ((crc << 1) ^ 0x1021) & 0xFFFF if crc & 0x8000 else (crc << 1) & 0xFFFF
+    return crc
+
+
+@given(st.binary(max_size=200))
+def test_documented_firmware_crc_loop_matches_crc_hqx(data):
+    assert _crc_bitwise(data) == crc16(data)

@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 import serial
 
-from winder.link.codec import LineFramer, encode_command, parse_device_line
+from winder.link.codec import PROTOCOL_VERSION, LineFramer, encode_command, parse_device_line
 from winder.link.counting import TurnTracker
 from winder.link.errors import (
     CommandRejected,
@@ -353,6 +353,10 @@ class WinderLink:
                         next_hi = 0.0
                     hello = msg
                 elif isinstance(msg, Ack) and msg.seq == hi_seq and hello is not None:
+                    if hello.protocol > PROTOCOL_VERSION:
+                        raise HandshakeError(
+                            f"{self.url}: device speaks protocol {hello.protocol}; this "
+                            f"winder knows protocol {PROTOCOL_VERSION} (update winder)")
                     return _info_from_hello(hello, self.url)
         if plain >= 2 and not protocol_seen:
             return DeviceInfo(
