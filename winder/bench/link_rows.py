@@ -1,0 +1,135 @@
+"""Rows for the link: codec parse rate and driver + journal ingest, both as ratios
+to what a 115200-baud line carries.
+
+Line rate: 115200 baud with 8N1 framing is 10 bits per byte, 11,520 bytes/s;
+divided by the mean length of the status lines used (``ST`` lines made by the
+codec itself, as a running controller sends them) it gives status lines per
+second, the floor both rows are divided by.
+"""
+
+from __future__ import annotations
+
+import json
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+
+from winder.bench import Row, missing, verdict
+from winder.bench.measure import child_env
+
+BAUD = 115200
+BITS_PER_BYTE = 10          # 8N1: start bit, 8 data bits, stop bit
+CODEC_RATIO = 20.0          # issue budget: parse at least 20 x the line rate
+INGEST_RATIO = 1.0          # ours: the host keeps up with a saturated line
+
+
+def status_lines(n: int, start: int = 100_000) -> list[bytes]:
+    """``n`` running-controller status lines from the codec, counts rising from ``start``."""
+    from winder.link.codec import encode_status
+    from winder.link.messages import StatusReport
+
+    out = []
+    for i in range(n):
+        out.append(encode_status(StatusReport(
+            count=start + i, rpm=1437.5 + (i % 7) * 0.5, guide_mm=3.0 + (i % 400) * 0.061,
+            state="run", fault_bits=0, queued=3 + i % 2)))
+    return out
+
+
+def line_rate(lines: list[bytes]) -> tuple[float, float]:
+    """(status lines per second at 115200 baud 8N1, mean line length in bytes incl. LF)."""
+    mean = statistics.fmean(len(x) for x in lines)
+    return BAUD / BITS_PER_BYTE / mean, mean
+
+
+def codec_row(quick: bool) -> Row:
+    """Bytes -> LineFramer -> parse_device_line, fed in 64-byte reads like a USB serial port."""
+    gone = missing("winder.link.codec")
+    if gone:
+        return Row("codec", "", gone, verdict="n/a")
+    from winder.link.codec import LineFramer, parse_device_line
+
+    n = 2_000 if quick else 20_000
+    lines = status_lines(n)
+    floor, mean = line_rate(lines)
+    stream = b"".join(lines)
+    chunks = [stream[i:i + 64] for i in range(0, len(stream), 64)]
+
+    def once() -> float:
+        framer = LineFramer()
+        t0 = time.perf_counter()
+        got = 0
+        for c in chunks:
+            for line in framer.feed(c):
+                parse_device_line(line)
+                got += 1
+        dt = time.perf_counter() - t0
+        assert got == n, (got, n)
+        return dt
+
+    once()
+    samples = [once() for _ in range(3 if quick else 9)]
+    rate = n / statistics.median(samples)
+    ratio = rate / floor
+    return Row("codec", "", f"{rate:,.0f} lines/s = {ratio:,.0f} x line rate",
+               f">= {CODEC_RATIO:g} x", verdict(ratio >= CODEC_RATIO),
+               note=f"ST lines of {mean:.1f} bytes; 115200 baud 8N1 carries {floor:.0f} lines/s",
+               value=ratio, unit="x", extra={"lines_per_s": rate, "line_bytes": mean,
+                                             "line_rate": floor})
+
+
+def ingest_row(quick: bool) -> Row:
+    """A host child (link + runner + journal) under a flood of status lines from the sim."""
+    gone = missing("winder.link.driver", "winder.link.simproc", "winder.session.runner",
+                   "winder.session.prepare")
+    if gone:
+        return Row("ingest", "", gone, verdict="n/a")
+    from winder.link.simproc import start_sim
+
+    n = 300 if quick else 4_000
+    offered = 1_000.0                    # lines/s the flood is paced at (3.5 x line rate)
+    batch = 20
+    lines = status_lines(n, start=1)
+    floor, mean = line_rate(lines)
+    with tempfile.TemporaryDirectory(prefix="winder-bench-") as data, \
+            start_sim(mode="counter", speedup=1000.0, extra=["--crank-rpm", "0"]) as sim:
+        host = subprocess.Popen(
+            [sys.executable, "-m", "winder.bench.ingest_host", sim.device],
+            stdin=subprocess.PIPE, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+            env=child_env(data))
+        try:
+            assert host.stdout is not None and host.stdin is not None
+            ready = host.stdout.readline()
+            if not ready.startswith("ready"):
+                err = host.stderr.read() if host.stderr else ""
+                raise RuntimeError(f"ingest host did not start: {' '.join(err.split())[-300:]}")
+            t0 = time.perf_counter()
+            for i in range(0, n, batch):
+                due = t0 + i / offered
+                wait = due - time.perf_counter()
+                if wait > 0:
+                    time.sleep(wait)
+                sim.control("inject " + b"".join(lines[i:i + batch]).hex())
+            flood_s = time.perf_counter() - t0
+            time.sleep(0.5)                  # let the host drain what is in the pty
+            out, err = host.communicate("stop\n", timeout=30)
+        finally:
+            if host.poll() is None:
+                host.kill()
+                host.wait()
+    res = json.loads([ln for ln in out.splitlines() if ln.strip()][-1])
+    got = res["lines"]
+    per_cpu = got / res["cpu_s"] if res["cpu_s"] > 0 else float("inf")
+    ratio = per_cpu / floor
+    cpu_pct = 100 * res["cpu_s"] / res["wall_s"]
+    lost = n - res["status_injected_seen"]
+    return Row("ingest", "", f"{per_cpu:,.0f} lines per host CPU-s = {ratio:,.1f} x line rate",
+               f">= {INGEST_RATIO:g} x (ours)", verdict(ratio >= INGEST_RATIO and lost == 0),
+               note=(f"{got} lines in {res['wall_s']:.1f} s offered at {n / flood_s:,.0f}/s; host "
+                     f"CPU {cpu_pct:.0f} % of one core; {res['checkpoints']} fsync'ed "
+                     f"checkpoints; {lost} injected lines not seen, "
+                     f"{res['dropped_events']} events dropped"),
+               value=ratio, unit="x", extra={**res, "offered_per_s": n / flood_s,
+                                             "line_rate": floor, "line_bytes": mean})
