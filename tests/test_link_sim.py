@@ -234,6 +234,48 @@ def test_reboot_is_detected_and_the_offset_applied(sim_factory, links):
     assert sim.truth()["coil_turns"] == pytest.approx(200)
 
 
+def test_reboot_during_a_drop_is_reported_on_reconnect(sim_factory, links):
+    sim = sim_factory(mode="counter", speedup=20)
+    events: queue.Queue = queue.Queue()
+    link = links(sim.device, events=events)
+    info = link.open()
+    sim.control("crank 0")
+    time.sleep(0.4)
+    kept = link.turns
+    assert kept > 0
+    sim.control("drop 1.0")
+    sim.control("reboot")
+    restored = next_event(events, LinkRestored, 10)
+    assert restored.rebooted and restored.info.boot_id != info.boot_id
+    time.sleep(0.4)
+    assert sim.truth()["count"] == 0 and link.turns == kept
+
+
+HOST_EXIT_SCRIPT = r"""
+import sys
+from winder.link import WinderLink
+link = WinderLink(sys.argv[1])
+link.open()
+link.queue_pass(1.0, 50.0, 100000, 600)
+link.go()
+link.wait_for(lambda s: s.rpm > 100, 10)
+raise SystemExit("host gives up without closing the link")
+"""
+
+
+def test_host_exit_without_close_stops_the_motor_at_once(sim_factory):
+    sim = sim_factory(speedup=1)
+    env = dict(os.environ)
+    env["PYTHONPATH"] = os.path.dirname(os.path.dirname(__file__)) + os.pathsep + env.get(
+        "PYTHONPATH", "")
+    r = subprocess.run([sys.executable, "-c", HOST_EXIT_SCRIPT, sim.device], env=env,
+                       capture_output=True, text=True, timeout=20)
+    assert r.returncode == 1
+    t = sim.truth()
+    assert not t["motor_running"] and t["queued"] == 0      # HALT at exit, not the watchdog
+    assert "watchdog" not in t["faults"]
+
+
 def test_corrupted_bytes_are_rejected_counted_and_survived(sim_factory, links):
     sim = sim_factory(speedup=10)
     link = links(sim.device, retries=8)

@@ -8,11 +8,13 @@ family, an idempotent shutdown). See the package docstring for the thread rules.
 
 from __future__ import annotations
 
+import atexit
 import logging
 import queue
 import random
 import threading
 import time
+import weakref
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -48,6 +50,19 @@ from winder.link.transport import open_port
 log = logging.getLogger("winder.link")
 
 _IO_ERRORS = (serial.SerialException, OSError, ValueError, TypeError, AttributeError)
+
+_OPEN_LINKS: weakref.WeakSet = weakref.WeakSet()
+
+
+@atexit.register
+def _close_open_links() -> None:
+    """At interpreter exit, stop every motor a link still drives (the watchdog is the
+    backstop for a hard crash)."""
+    for link in list(_OPEN_LINKS):
+        try:
+            link.close()
+        except Exception:  # exiting anyway; never mask the original exit
+            log.exception("closing link at exit")
 
 
 @dataclass
@@ -157,6 +172,7 @@ class WinderLink:
         self._install(ser, info, first=True)
         self._thread = threading.Thread(target=self._run, name="winder-link", daemon=True)
         self._thread.start()
+        _OPEN_LINKS.add(self)
         return info
 
     def __enter__(self) -> WinderLink:
