@@ -17,16 +17,18 @@ Inductance (air core)
     ``L = 0.8 a² N² / (6a + 9b + 10c)``, a = mean radius, b = length, c = depth.
     Wheeler claims about 1 % when the three denominator terms are comparable. Measured
     here against Maxwell's coaxial-loop mutual inductance summed over a filament grid
-    with near-square cells (11737 proportions, 0.1 <= b/a <= 10, 0.05 <= c/a <= 1.9;
-    tests/test_em.py re-checks 30 of them), the error by the spread
+    of square cells (:func:`filament_inductance_h`; 11737 proportions,
+    0.1 <= b/a <= 10, 0.05 <= c/a <= 1.9; tests/test_em.py re-checks 30 of them with
+    an independent scipy implementation), the error by the spread
     s = max/min of (6a, 9b, 10c)::
 
-        s <= 1.5   -1.2 % .. +0.8 %      s <= 3     -5.0 % .. +4.6 %
-        s <= 2     -2.1 % .. +1.7 %      s <= 5     -8.1 % .. +9.5 %
-        whole range: about -12 % .. -14 % (long thin coils, b/a = 10, c/a = 0.05; the
-        reference's cells get elongated there) .. +21.7 % (long full coils, c/a near
-        2: almost no core)
+        s <= 1.5   -1.3 % .. +0.8 %      s <= 3     -5.2 % .. +4.6 %
+        s <= 2     -2.1 % .. +1.7 %      s <= 5     -8.1 % .. +8.6 %
+        whole range: -11.0 % (long thin coils, b/a = 10) .. +20.4 % (long full
+        coils, c/a near 2: almost no core)
 
+    So on round cores :func:`air_core_estimate` uses Wheeler where s <= 2 and the
+    filament sum itself (error under 1 %, :data:`FILAMENT_BAND_PCT`) elsewhere.
     :data:`WHEELER_BANDS_PCT` holds these bands rounded outward, and
     :func:`air_core_band_pct` picks the one for a coil.
 
@@ -49,7 +51,9 @@ Inductance (air core)
 
     Elongated cores read high: +2.8 % .. +6.6 % at aspect 8, +4.7 % .. +8.6 % at
     16..24. :data:`RECT_BANDS_PCT` holds the bands; beyond s = 5 it falls back to
-    Wheeler's widest round-coil band, the honest bound there.
+    Wheeler's widest round-coil band, the honest bound there. (A filament sum for
+    rectangular turns needs the segment mutuals of the tests' reference, about
+    0.1-0.5 s a coil: left for later.)
 
     A core of steel or magnets changes everything: when the bobbin records a measured
     inductance of an earlier coil (henry, turns) on the same bobbin and core,
@@ -248,11 +252,11 @@ def wheeler_spread(mean_radius_m: float, length_m: float, depth_m: float) -> flo
 # Measured error of wheeler_h against the filament reference (tests/test_em.py), percent,
 # by the spread of the denominator terms, over 0.1 <= b/a <= 10 and 0.05 <= c/a <= 1.9,
 # rounded outward.
-WHEELER_BANDS_PCT = ((1.5, (-1.3, 0.9)), (2.0, (-2.2, 1.8)), (3.0, (-5.1, 4.7)),
-                     (5.0, (-8.2, 9.6)), (math.inf, (-15.0, 22.0)))
+WHEELER_BANDS_PCT = ((1.5, (-1.4, 0.9)), (2.0, (-2.3, 1.8)), (3.0, (-5.3, 4.7)),
+                     (5.0, (-8.3, 9.6)), (math.inf, (-12.0, 21.5)))
 # The same for rectangular cores through the equivalent below, aspect ratio up to 12.
 # Measured up to a spread of 7.6, aspect up to 24; beyond 5 the round coil's widest band.
-RECT_BANDS_PCT = ((3.0, (0.0, 9.0)), (5.0, (-4.5, 9.0)), (math.inf, (-15.0, 22.0)))
+RECT_BANDS_PCT = ((3.0, (0.0, 9.0)), (5.0, (-4.5, 9.0)), (math.inf, (-12.0, 21.5)))
 
 
 def wheeler_band_pct(spread: float, core: str = "round") -> tuple[float, float]:
@@ -321,12 +325,97 @@ def scaled_inductance_h(reference: tuple[float, float], turns: ArrayLike) -> NDA
     return l_ref * (n / n_ref) ** 2
 
 
+def _ellip_ke(m: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """Complete elliptic integrals K(m), E(m) (parameter m = k², 0 <= m < 1) by the
+    arithmetic-geometric mean; converged to double precision in a few steps."""
+    a = np.ones_like(m)
+    b = np.sqrt(1.0 - m)
+    c2_sum = 0.5 * m  # sum of 2^(n-1) c_n², c_0² = m
+    scale = 0.5
+    for _ in range(12):
+        c = 0.5 * (a - b)
+        a, b = 0.5 * (a + b), np.sqrt(a * b)
+        scale *= 2.0
+        c2_sum = c2_sum + scale * c * c
+    k = np.pi / (2.0 * a)
+    return k, k * (1.0 - c2_sum)
+
+
+def coaxial_mutual_h(r1_m: ArrayLike, r2_m: ArrayLike, d_m: ArrayLike) -> NDArray[np.float64]:
+    """Maxwell's mutual inductance of two coaxial circular loops of radii r1, r2 a
+    distance d apart, H: ``mu0 sqrt(r1 r2) [(2/k - k) K(k) - (2/k) E(k)]``,
+    k² = 4 r1 r2 / ((r1 + r2)² + d²) (vectorised)."""
+    r1 = np.asarray(r1_m, dtype=float)
+    r2 = np.asarray(r2_m, dtype=float)
+    d = np.asarray(d_m, dtype=float)
+    m = 4.0 * r1 * r2 / ((r1 + r2) ** 2 + d * d)
+    k = np.sqrt(m)
+    kk, ee = _ellip_ke(m)
+    return MU0 * np.sqrt(r1 * r2) * ((2.0 / k - k) * kk - 2.0 / k * ee)
+
+
+def filament_inductance_h(shape: CoilShape, *, cells: int = 8, max_cells: int = 2000) -> float:
+    """Air-core inductance of a coil on a round core by a filament sum, H.
+
+    The winding cross-section is cut into near-square cells (``cells`` across the
+    shorter side, at most ``max_cells`` along the longer); each cell is a circular
+    filament carrying its share of the turns; mutual terms by Maxwell's formula
+    (:func:`coaxial_mutual_h`), self terms ``mu0 R (ln(8R/g) - 2)`` with g the geometric
+    mean distance of the cell, 0.2235 (dr + dz) (Maxwell). Mutual terms depend only on
+    the two radii and the axial offset, so the cost is nr² nz, not (nr nz)²: long
+    thin coils keep square cells. Against a converged grid the default is within
+    :data:`FILAMENT_BAND_PCT`; the self terms lose accuracy only when the winding
+    nearly reaches the axis (c/a near 2)."""
+    if shape.core != "round":
+        raise InputError("the filament sum is for round cores", key="core")
+    c, b = shape.build_m, shape.length_m
+    if c < b:
+        nr, nz = cells, min(max_cells, max(cells, round(cells * b / c)))
+    else:
+        nr, nz = min(max_cells, max(cells, round(cells * c / b))), cells
+    dr, dz = c / nr, b / nz
+    r = shape.inner_radius_m + (np.arange(nr) + 0.5) * dr
+    zi = np.arange(nz) * dz
+    # mutual terms depend on the two radii and the axial offset k*dz only:
+    # sum over offsets with multiplicity (nz for k = 0, 2 (nz - k) otherwise)
+    ri, rj = r[:, None, None], r[None, :, None]
+    dd = zi[None, None, :]
+    same = (np.arange(nr)[:, None, None] == np.arange(nr)[None, :, None]) & (dd == 0.0)
+    g = 0.2235 * (dr + dz)
+    m = coaxial_mutual_h(ri, rj, np.where(same, g, dd))  # self entries replaced below
+    self_terms = MU0 * r * (np.log(8.0 * r / g) - 2.0)
+    m = np.where(same, self_terms[:, None, None] * np.ones_like(m), m)
+    mult = np.where(np.arange(nz) == 0, nz, 2 * (nz - np.arange(nz)))
+    total = float((m * mult[None, None, :]).sum())
+    return total * (shape.turns / (nr * nz)) ** 2
+
+
+# Filament sum (default grid, 8 cells across the shorter side) against a grid of 16,
+# percent, over 0.1 <= b/a <= 10 and 0.05 <= c/a <= 1.9: -0.52 .. +0.01 (-0.10 .. +0.01
+# for c/a <= 1); with the 1/n² convergence the true error is about 4/3 of that.
+FILAMENT_BAND_PCT = (-0.8, 0.1)
+
+
+def air_core_estimate(shape: CoilShape) -> tuple[float, str, tuple[float, float]]:
+    """The best air-core figure: (henry, method, measured band in percent).
+
+    Wheeler's formula (method ``"wheeler"``) where its terms have a spread of at most
+    2 (error within about 2 %) and for rectangular cores; otherwise, on round cores,
+    the filament sum (method ``"filament"``), whose error does not depend on the
+    proportions."""
+    if shape.core == "round":
+        a = shape.inner_radius_m + shape.build_m / 2.0
+        if wheeler_spread(a, shape.length_m, shape.build_m) > 2.0:
+            return filament_inductance_h(shape), "filament", FILAMENT_BAND_PCT
+    return air_core_inductance_h(shape), "wheeler", air_core_band_pct(shape)
+
+
 def inductance_h(shape: CoilShape, reference: tuple[float, float] | None = None) -> float:
     """The coil's inductance, H: scaled from ``reference`` (henry, turns) when given
-    (it knows the core material), else the air-core estimate."""
+    (it knows the core material), else :func:`air_core_estimate`."""
     if reference is not None:
         return float(scaled_inductance_h(reference, shape.turns))
-    return air_core_inductance_h(shape)
+    return air_core_estimate(shape)[0]
 
 
 # ------------------------------------------------------------------------------- field
@@ -560,20 +649,24 @@ def coil_em(shape: CoilShape, *, resistance_ohm: float | None = None,
             ambient_c: float = AMBIENT_C, class_temp_c: float | None = None) -> dict[str, Any]:
     """The figures as a plain dict (the keys of ``winder plan --json``).
 
-    Always: ``inductance_uH``, ``inductance_source`` ("reference" or "air core"),
-    ``inductance_band_pct`` (measured [low, high] error of the air-core estimate, None
-    for a reference), ``center_field_mT_per_A``; with ``distance_m``: ``field_at_point_mT_per_A``;
+    Always: ``inductance_uH``, ``inductance_source`` ("reference", "air core
+    (wheeler)" or "air core (filament)"), ``inductance_band_pct`` (measured [low, high]
+    error of the air-core estimate, None for a reference), ``air_core_inductance_uH``
+    (the air-core figure even when a reference is used), ``center_field_mT_per_A``;
+    with ``distance_m``: ``field_at_point_mT_per_A``;
     with a drive (needs ``resistance_ohm`` at 20 C and ``bare_m``): ``current_a``,
     ``ampere_turns``, ``power_w``, ``temp_rise_c``, ``coil_temp_c``,
     ``resistance_hot_ohm``, ``current_density_a_mm2``, ``field_at_point_mT``
     (None without a distance) and ``warnings``. Power and temperatures are None when
     a current drive has no steady state (the warning says so).
     """
+    l_air, method, band = air_core_estimate(shape)
+    ref = reference_inductance is not None
     out: dict[str, Any] = {
         "inductance_uH": inductance_h(shape, reference_inductance) * 1e6,
-        "inductance_source": "reference" if reference_inductance is not None else "air core",
-        "inductance_band_pct": None if reference_inductance is not None
-        else list(air_core_band_pct(shape)),
+        "inductance_source": "reference" if ref else f"air core ({method})",
+        "inductance_band_pct": None if ref else list(band),
+        "air_core_inductance_uH": l_air * 1e6,
         "center_field_mT_per_A": center_field_t_per_a(shape) * 1e3,
     }
     if distance_m is not None:
