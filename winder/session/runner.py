@@ -155,6 +155,7 @@ class Runner:
         self._reading_deadline = 0.0
         self._proposed_stop: float | None = None
         self._finishing = False
+        self._fresh_after = 0.0
         st = session.state
         if stop_at_resistance and st.target_ohm is None:
             raise InputError("--stop-at-resistance needs a coil whose target is a resistance",
@@ -181,6 +182,9 @@ class Runner:
 
     @property
     def turns(self) -> float:
+        """The live count: the latest device status, else the journal's last count."""
+        if self.status is not None and not self.session.state.link_down:
+            return float(self.status.turns)
         return self.session.state.turns
 
     @property
@@ -231,13 +235,20 @@ class Runner:
                              where="SESSION")
         info = self.link.info
         boot = getattr(info, "boot_id", "") or ""
+        wait_for = getattr(self.link, "wait_for", None)
+        if wait_for is not None:   # the count is known once the first status arrived
+            try:
+                wait_for(lambda s: True, 3.0)
+            except WinderError as err:
+                raise InputError(f"the device sent no status after connecting ({err})",
+                                 where="--port") from None
         device_turns = float(self.link.turns)
         journal_turns = st.turns
         same = bool(boot) and boot == st.boot_id
         if not boot and device_turns >= journal_turns:
             same = True   # a device without boot ids: trust a count that did not go back
         if self.motor:
-            self._safe(self.link.stop)         # a left-over queue is cleared first
+            self._clear_device()               # left-over queue and latched faults
         if same:
             turns = device_turns
             unacc = 0.0
@@ -334,6 +345,15 @@ class Runner:
         return n, pm
 
     # ---- winding ------------------------------------------------------------------------
+    def _clear_device(self) -> None:
+        """Stop with an empty queue and no latched faults (statuses older are ignored)."""
+        self._safe(self.link.stop)
+        if "clear" in dir(self.link):
+            self._safe(self.link.clear)
+        self._fresh_after = time.monotonic()
+        if self.status is not None:
+            self.status = _with_queued(self.status, 0)
+
     def _begin_run(self) -> None:
         if self.motor:
             self._plan_segments()
@@ -426,6 +446,8 @@ class Runner:
     def _on_status(self, st: Any) -> None:
         if self.done:
             return
+        if getattr(st, "t", 1.0) < self._fresh_after:
+            return   # sent before the device was cleared
         self.status = st
         self._last_status_t = time.monotonic()
         if st.rpm == st.rpm:  # not NaN (integer-only devices report no speed)
@@ -533,7 +555,10 @@ class Runner:
         if kind == "reading" and "ohm" in ev.data:
             why = self._want_reading or "device"
             self._want_reading = None
-            turns = float(self.status.turns) if self.status is not None else self.turns
+            turns = self.turns
+            c = ev.data.get("c")
+            if isinstance(c, (int, float)) and self.status is not None:
+                turns = float(self.status.turns) + (float(c) - self.status.count) / self._cpr()
             self._add_reading(Reading(turns, float(ev.data["ohm"]), None,
                                       "final" if why == "final" else ""), source="device")
             if why == "final":
@@ -631,12 +656,10 @@ class Runner:
             self._emit("link_back", f"link back; count {turns:g}")
         self._pending.clear()
         if self.motor:
-            self._safe(self.link.stop)
+            self._clear_device()
         if st.state != "running":
             return
         if self.auto_continue:
-            if self.motor:
-                self._safe(self.link.clear)
             self._begin_run()
             self._emit("continued", "continuing")
         elif self.motor and was_running:
@@ -712,9 +735,7 @@ class Runner:
         if st.state == "paused" and st.reason == "wire_break":
             self._record("splice", turns=self.turns, note="")
         if self.motor:
-            self._safe(self.link.clear)
-            self._safe(self.link.stop)       # restart from a clean queue at the true count
-            self.status = _with_queued(self.status, 0) if self.status else None
+            self._clear_device()             # restart from a clean queue at the true count
         self._record("continued", turns=self.turns)
         self._begin_run()
         self._emit("continued", f"continuing from {self.turns:g} turns")
@@ -750,9 +771,20 @@ class Runner:
         if self.motor and not self.waiting and self.state.state == "running":
             self._safe(self.link.pause)
             self._settle()
-            self._safe(self.link.stop)
-            self.status = _with_queued(self.status, 0) if self.status else None
+            self._clear_device()
             self._begin_run()
+
+    def _settled_count(self, timeout: float = 1.0) -> float:
+        """The count once a status sent after now shows the spindle still (best effort)."""
+        wait_for = getattr(self.link, "wait_for", None)
+        if wait_for is None or not getattr(self.link, "connected", False):
+            return self.turns
+        t0 = time.monotonic()
+        try:
+            st = wait_for(lambda s: s.t >= t0 and not (s.rpm > 0), timeout)
+            return float(st.turns)
+        except WinderError:
+            return self.turns
 
     def _settle(self) -> None:
         wait_for = getattr(self.link, "wait_for", None)
@@ -767,8 +799,13 @@ class Runner:
         self._correct(turns, reason, None)
 
     def _correct(self, turns: float, reason: str, ohm: float | None) -> None:
+        if self.motor and self.state.state == "running" and not self.waiting \
+                and self.status is not None:
+            raise InputError("pause first (p), then correct the count", where="keys")
         old = self.turns
         self.link.preload(round(turns * self._cpr()))
+        self._fresh_after = time.monotonic()
+        self.status = None
         self._record("count_corrected", turns=float(turns), old_turns=old, reason=reason,
                      ohm=ohm)
         self.policy.mark(float(turns), self.clock())
@@ -791,13 +828,9 @@ class Runner:
         if self.motor:
             self._safe(self.link.stop)
         if not self.done and self.state.state not in ("finished", "aborted"):
-            if self.status is not None and self.state.state == "running":
-                turns = float(self.status.turns)
-                if turns != self.turns:
-                    self.session.record("checkpoint", turns=turns, rpm=0.0,
-                                        elapsed_s=self.state.winding_s)
+            turns = self._settled_count()
             if self.state.state == "running" or self.state.reason != reason:
-                self.session.record("paused", turns=self.turns, reason=reason)
+                self.session.record("paused", turns=turns, reason=reason)
             self.session.write_summary()
             self.done = True
             self._emit("stopped", f"stopped at {self.turns:g} turns ({reason})")
