@@ -354,11 +354,12 @@ def coaxial_mutual_h(r1_m: ArrayLike, r2_m: ArrayLike, d_m: ArrayLike) -> NDArra
     return MU0 * np.sqrt(r1 * r2) * ((2.0 / k - k) * kk - 2.0 / k * ee)
 
 
-def filament_inductance_h(shape: CoilShape, *, cells: int = 8, max_cells: int = 2000) -> float:
+def filament_inductance_h(shape: CoilShape, *, cells: int = 8, max_cells: int = 200) -> float:
     """Air-core inductance of a coil on a round core by a filament sum, H.
 
     The winding cross-section is cut into near-square cells (``cells`` across the
-    shorter side, at most ``max_cells`` along the longer); each cell is a circular
+    shorter side, fewer for very slender sections so that at most ``max_cells`` run
+    along the longer; memory goes as nr² nz); each cell is a circular
     filament carrying its share of the turns; mutual terms by Maxwell's formula
     (:func:`coaxial_mutual_h`), self terms ``mu0 R (ln(8R/g) - 2)`` with g the geometric
     mean distance of the cell, 0.2235 (dr + dz) (Maxwell). Mutual terms depend only on
@@ -369,10 +370,11 @@ def filament_inductance_h(shape: CoilShape, *, cells: int = 8, max_cells: int = 
     if shape.core != "round":
         raise InputError("the filament sum is for round cores", key="core")
     c, b = shape.build_m, shape.length_m
-    if c < b:
-        nr, nz = cells, min(max_cells, max(cells, round(cells * b / c)))
-    else:
-        nr, nz = min(max_cells, max(cells, round(cells * c / b))), cells
+    ratio = max(b / c, c / b)
+    # fewer cells across the short side of a very slender section keeps them square
+    n_short = max(2, min(cells, int(max_cells / ratio)))
+    n_long = min(max_cells, max(n_short, round(n_short * ratio)))
+    nr, nz = (n_short, n_long) if c < b else (n_long, n_short)
     dr, dz = c / nr, b / nz
     r = shape.inner_radius_m + (np.arange(nr) + 0.5) * dr
     zi = np.arange(nz) * dz
