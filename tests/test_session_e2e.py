@@ -101,10 +101,12 @@ def wait_stopped(sim, timeout=5.0):
 
 
 def report(tmp_path, sdir):
-    r = subprocess.run([sys.executable, "-m", "winder", "report", str(sdir), "--json"],
-                       env=env(tmp_path), cwd=ROOT, capture_output=True, text=True, timeout=30)
-    assert r.returncode == 0, r.stderr
-    return json.loads(r.stdout)
+    """The report as `winder report --json` prints it (built in-process to save a start-up;
+    the command itself is tested in test_session_report.py)."""
+    from winder.session.report import build_report
+    from winder.session.session import Session
+
+    return json.loads(json.dumps(build_report(Session.open(sdir))))
 
 
 def test_wind_headless_to_the_planned_count(tmp_path, coil):
@@ -127,7 +129,7 @@ def test_wind_headless_to_the_planned_count(tmp_path, coil):
 def test_sigkill_mid_wind_then_resume_finishes_with_the_exact_count(tmp_path, coil):
     path, plan = coil
     sdir = tmp_path / "s2"
-    with sim_for(plan, speedup=6) as sim:
+    with sim_for(plan, speedup=10) as sim:
         host = winder(tmp_path, "wind", path, "--port", sim.device, "--headless",
                       "--session", sdir)
         wait_turns(sdir, plan.turns * 0.3)
@@ -157,7 +159,7 @@ def test_sigkill_mid_wind_then_resume_finishes_with_the_exact_count(tmp_path, co
 def test_device_reboot_during_the_outage(tmp_path, coil):
     path, plan = coil
     sdir = tmp_path / "s3"
-    with sim_for(plan, speedup=6) as sim:
+    with sim_for(plan, speedup=10) as sim:
         host = winder(tmp_path, "wind", path, "--port", sim.device, "--headless",
                       "--session", sdir)
         wait_turns(sdir, plan.turns * 0.3)
@@ -170,7 +172,7 @@ def test_device_reboot_during_the_outage(tmp_path, coil):
         physical = stopped["coil_turns"]
         sim.control("reboot")                    # the count on the device is gone
         time.sleep(0.6)
-        sim.control("speedup 6")
+        sim.control("speedup 10")
         rc, out, err = finish(winder(tmp_path, "resume", sdir, "--headless",
                                      stdin=subprocess.DEVNULL))
         assert rc == 0, err + out
@@ -194,7 +196,7 @@ def test_device_reboot_during_the_outage(tmp_path, coil):
 def test_reboot_with_correction_from_a_reading(tmp_path, coil):
     path, plan = coil
     sdir = tmp_path / "s4"
-    with sim_for(plan, speedup=6) as sim:
+    with sim_for(plan, speedup=10) as sim:
         host = winder(tmp_path, "wind", path, "--port", sim.device, "--headless",
                       "--session", sdir)
         wait_turns(sdir, plan.turns * 0.4)
@@ -238,7 +240,7 @@ def test_stop_at_resistance_lands_within_half_a_percent(tmp_path, coil):
 def test_sigterm_stops_the_motor_and_resume_finishes(tmp_path, coil):
     path, plan = coil
     sdir = tmp_path / "s6"
-    with sim_for(plan, speedup=6) as sim:
+    with sim_for(plan, speedup=10) as sim:
         host = winder(tmp_path, "wind", path, "--port", sim.device, "--headless",
                       "--session", sdir)
         wait_turns(sdir, plan.turns * 0.3)
@@ -263,7 +265,9 @@ def test_sigterm_stops_the_motor_and_resume_finishes(tmp_path, coil):
 def test_counter_device_follows_the_count_and_stops_journaling(tmp_path, coil):
     path, plan = coil
     sdir = tmp_path / "s7"
-    with sim_for(plan, speedup=10, mode="counter", extra=["--crank-rpm", "400"]) as sim:
+    crank_rpm, speedup = 900, 10
+    with sim_for(plan, speedup=speedup, mode="counter",
+                 extra=["--crank-rpm", str(crank_rpm)]) as sim:
         rc, out, err = finish(winder(tmp_path, "wind", path, "--port", sim.device,
                                      "--headless", "--session", sdir, stdin=subprocess.DEVNULL))
         assert rc == 0, err + out
@@ -273,6 +277,8 @@ def test_counter_device_follows_the_count_and_stops_journaling(tmp_path, coil):
     assert (sdir / "journal.jsonl").stat().st_size == size
     rep = report(tmp_path, sdir)
     assert rep["state"] == "finished"
-    assert plan.turns <= rep["turns_wound"] <= plan.turns + 5
+    # the count is seen every status (0.1 s); hand cranking wobbles up to about +40 %
+    per_status = 1.5 * crank_rpm * speedup / 60 * 0.1
+    assert plan.turns <= rep["turns_wound"] <= plan.turns + per_status + 1
     assert "stop winding now" in out
     assert "caution: the spindle will turn" not in out
