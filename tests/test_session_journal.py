@@ -145,3 +145,39 @@ def test_checkpoint_policy_interval_and_turns():
     assert pol.due(50.0, 1.0)               # a second has passed
     assert pol.due(100.0, 0.5)              # 100 turns have passed
     assert not pol.due(500.0, 0.05)         # but never closer than min_gap
+
+
+def _big(path, n):
+    j = Journal.create(path, {"session": "s"}, fsync=False)
+    for i in range(n):
+        j.append("checkpoint", turns=float(i), rpm=1.0, elapsed_s=0.0, t=1.0 + i)
+    j.close()
+
+
+def test_multi_chunk_replay_matches_line_by_line(tmp_path, monkeypatch):
+    monkeypatch.setattr(jr, "CHUNK_BYTES", 4096)     # many chunks, lines split across them
+    p = tmp_path / "journal.jsonl"
+    _big(p, 2000)
+    rep = replay(p)
+    assert [e["seq"] for e in rep.events] == list(range(2001))
+    assert rep.events[-1]["turns"] == 1999.0
+
+
+def test_acknowledged_fragment_and_damage_across_chunks(tmp_path, monkeypatch):
+    monkeypatch.setattr(jr, "CHUNK_BYTES", 4096)
+    p = tmp_path / "journal.jsonl"
+    _big(p, 300)
+    with open(p, "ab") as fh:
+        fh.write(b'{"seq":301,"t":1.0,"ki')
+    j = Journal.open_append(p)
+    for i in range(300):
+        j.append("checkpoint", turns=float(1000 + i), rpm=1.0, elapsed_s=0.0)
+    j.close()
+    rep = replay(p)
+    assert rep.torn is None and len(rep.fragments) == 1 and rep.fragments[0].line == 302
+    assert rep.events[-1]["turns"] == 1299.0 and len(rep.events) == 301 + 1 + 300
+    lines = p.read_bytes().split(b"\n")
+    lines[500] = b'{"seq":1,"kind":"note"},{"seq":2,"kind":"note"}'   # two JSON values
+    p.write_bytes(b"\n".join(lines))
+    with pytest.raises(InputError, match="line 501"):
+        replay(p)

@@ -192,71 +192,125 @@ class Replay:
         return (self.events[-1]["seq"] + 1) if self.events else 0
 
 
-def _lines(path: Path) -> Iterator[tuple[int, bytes, bool]]:
-    """(line number, bytes without newline, had newline); bounded memory per line."""
+CHUNK_BYTES = 1 << 20
+
+
+def _chunks(path: Path) -> Iterator[tuple[int, list[str], bool]]:
+    """(number of the first line, lines without newline, last line had a newline).
+
+    Reads 1 MiB at a time. Memory per line is bounded: a line longer than
+    :data:`MAX_LINE_BYTES` is refused as soon as that many bytes have been read
+    without a newline. Bytes that are not UTF-8 are replaced (such a line then
+    fails to parse as an event). Only the final item can have ``False``.
+    """
+    n = 1
+    rest = b""
     with open(path, "rb") as fh:
-        n = 0
         while True:
-            raw = fh.readline(MAX_LINE_BYTES + 1)
-            if not raw:
-                return
-            n += 1
-            if len(raw) > MAX_LINE_BYTES and not raw.endswith(b"\n"):
+            chunk = fh.read(CHUNK_BYTES)
+            if not chunk:
+                break
+            data = rest + chunk if rest else chunk
+            cut = data.rfind(b"\n") + 1
+            rest = data[cut:]
+            if cut:
+                lines = data[:cut - 1].decode("utf-8", "replace").split("\n")
+                for i, line in enumerate(lines):
+                    if len(line) > MAX_LINE_BYTES // 4 and len(line.encode()) > MAX_LINE_BYTES:
+                        raise InputError(f"line {n + i} is longer than {MAX_LINE_BYTES} bytes; "
+                                         "this is not a winder journal", where=str(path))
+                yield n, lines, True
+                n += len(lines)
+            if len(rest) > MAX_LINE_BYTES:
                 raise InputError(f"line {n} is longer than {MAX_LINE_BYTES} bytes; "
                                  "this is not a winder journal", where=str(path))
-            if raw.endswith(b"\n"):
-                yield n, raw[:-1], True
+    if rest:
+        yield n, [rest.decode("utf-8", "replace")], False
+
+
+class _Replayer:
+    """Line-by-line verdicts for :func:`replay` (the slow path, and the first line)."""
+
+    def __init__(self, path: Path, rep: Replay):
+        self.path = path
+        self.rep = rep
+        self.pending: tuple[int, int] | None = None   # an unreadable line awaiting its verdict
+        self.decode = json.JSONDecoder().decode
+
+    def damaged(self) -> InputError:
+        assert self.pending is not None
+        return InputError(f"line {self.pending[0]} is not a journal event; the journal is "
+                          "damaged beyond a torn last line", where=str(self.path))
+
+    def line(self, n: int, raw: str, had_nl: bool) -> None:
+        rep = self.rep
+        try:
+            ev = self.decode(raw)
+            if type(ev) is not dict or "kind" not in ev:
+                raise ValueError("not an event")
+        except ValueError:
+            if self.pending is not None:
+                raise self.damaged() from None
+            self.pending = (n, len(raw.encode("utf-8", "replace")))
+            return
+        if self.pending is not None:
+            if ev.get("kind") == "torn_line" and ev.get("line") == self.pending[0]:
+                rep.fragments.append(TornLine(self.pending[0], self.pending[1], True))
+                self.pending = None
             else:
-                yield n, raw, False
+                raise self.damaged()
+        if not had_nl:
+            # complete JSON but no newline: the write stopped just before "\n"
+            self.pending = (n, len(raw.encode("utf-8", "replace")))
+            return
+        if not rep.events:
+            self.first(ev)
+        rep.events.append(ev)
+
+    def first(self, ev: dict) -> None:
+        where = str(self.path)
+        if ev.get("kind") != "started":
+            raise InputError("the first journal line is not a 'started' event", where=where)
+        fmt = ev.get("format")
+        if not isinstance(fmt, int) or isinstance(fmt, bool):
+            raise InputError("the 'started' event has no format version", where=where)
+        if fmt > FORMAT_VERSION:
+            raise InputError(f"journal format {fmt} is newer than this winder reads "
+                             f"(format {FORMAT_VERSION}); upgrade winder to open it",
+                             where=where)
+        self.rep.format = fmt
 
 
 def replay(path: str | os.PathLike) -> Replay:
-    """Read a journal. Raises InputError for a missing, newer-format or corrupt file."""
+    """Read a journal. Raises InputError for a missing, newer-format or corrupt file.
+
+    Fast path: the complete lines of each 1 MiB chunk are decoded as one JSON array;
+    a chunk that does not decode cleanly into one event per line is judged line by line.
+    """
     path = Path(path)
     if not path.is_file():
         raise InputError("no journal here (journal.jsonl missing)", where=str(path.parent))
     rep = Replay(size_bytes=path.stat().st_size)
-    pending: tuple[int, int] | None = None  # an unreadable line waiting for its verdict
-    loads = json.loads
-    for n, raw, had_nl in _lines(path):
-        try:
-            if not raw.strip():
-                raise ValueError("blank")
-            ev = loads(raw)
-            if not isinstance(ev, dict) or "kind" not in ev:
-                raise ValueError("not an event")
-        except ValueError:
-            if pending is not None:
-                raise InputError(f"line {pending[0]} is not a journal event; the journal is "
-                                 "damaged beyond a torn last line", where=str(path)) from None
-            pending = (n, len(raw))
-            continue
-        if pending is not None:
-            if ev.get("kind") == "torn_line" and ev.get("line") == pending[0]:
-                rep.fragments.append(TornLine(pending[0], pending[1], True))
-                pending = None
-            else:
-                raise InputError(f"line {pending[0]} is not a journal event; the journal is "
-                                 "damaged beyond a torn last line", where=str(path))
-        if not had_nl:
-            # complete JSON but no newline: the write stopped just before "\n"
-            pending = (n, len(raw))
-            continue
-        if not rep.events:
-            if ev.get("kind") != "started":
-                raise InputError("the first journal line is not a 'started' event",
-                                 where=str(path))
-            fmt = ev.get("format")
-            if not isinstance(fmt, int) or isinstance(fmt, bool):
-                raise InputError("the 'started' event has no format version", where=str(path))
-            if fmt > FORMAT_VERSION:
-                raise InputError(f"journal format {fmt} is newer than this winder reads "
-                                 f"(format {FORMAT_VERSION}); upgrade winder to open it",
-                                 where=str(path))
-            rep.format = fmt
-        rep.events.append(ev)
-    if pending is not None:
-        rep.torn = TornLine(pending[0], pending[1], False)
+    r = _Replayer(path, rep)
+    decode = r.decode
+    for n0, lines, had_nl in _chunks(path):
+        if not rep.events and r.pending is None and len(lines) > 1:
+            r.line(n0, lines[0], True)       # the started event, checked on its own
+            n0, lines = n0 + 1, lines[1:]
+        if had_nl and rep.events and r.pending is None:
+            try:
+                batch = decode("[" + ",".join(lines) + "]")
+            except ValueError:
+                batch = None
+            if batch is not None and len(batch) == len(lines) and all(
+                    type(ev) is dict and "kind" in ev for ev in batch):
+                rep.events.extend(batch)
+                continue
+        last = len(lines) - 1
+        for i, raw in enumerate(lines):
+            r.line(n0 + i, raw, had_nl or i < last)
+    if r.pending is not None:
+        rep.torn = TornLine(r.pending[0], r.pending[1], False)
         rep.fragments.append(rep.torn)
     if not rep.events:
         raise InputError("the journal holds no complete event", where=str(path))

@@ -65,6 +65,16 @@ class SessionState:
         """Update from one journal event (unknown kinds are counted and ignored)."""
         kind = ev.get("kind")
         t = float(ev.get("t") or 0.0)
+        if kind == "checkpoint" and self.last_t is not None:   # the common case, inlined
+            if self.state == "running" and not self.link_down and t > self.last_t:
+                self.winding_s += t - self.last_t
+            turns = ev.get("turns")
+            if type(turns) is float or type(turns) is int:
+                self.turns = float(turns)
+            self.rpm = float(ev.get("rpm") or 0.0)
+            self.last_t = t
+            self.events += 1
+            return
         prev_t = self.last_t
         if (prev_t is not None and self.state == "running" and not self.link_down
                 and kind != "resumed"):
