@@ -156,6 +156,9 @@ def machine_line() -> str:
             vers.append(f"{mod} {version(mod)}")
         except Exception:
             pass
+    load = ""
+    if hasattr(os, "getloadavg"):
+        load = f", load average {os.getloadavg()[0]:.1f} at the end"
     return (f"{cpu}, {cores} cores available, {platform.system()} {platform.release()}, "
             f"Python {platform.python_version()} ({sys.implementation.name}), "
-            + ", ".join(vers))
+            + ", ".join(vers) + load)
