@@ -92,3 +92,14 @@ class StandInControl:
     def advance(self, turns: float, rpm: float = 600.0, guide_mm: float | None = None) -> None:
         self.turns = turns
         self.feed.status(turns=turns, rpm=rpm, guide_mm=guide_mm)
+
+
+def screen_text(app: Any) -> str:
+    """The text of the active screen as rendered (one line per terminal row)."""
+    return "\n".join(strip.text for strip in app.screen._compositor.render_strips())
+
+
+async def type_text(pilot: Any, text: str) -> None:
+    """Type ``text`` key by key."""
+    keys = {" ": "space", ".": "full_stop", "-": "minus", "+": "plus", "%": "percent_sign"}
+    await pilot.press(*[keys.get(ch, ch) for ch in text])

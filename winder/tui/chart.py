@@ -112,7 +112,7 @@ def resistance_chart(width: int, height: int, *, turns_max: float,
     plot_h = height - 2                   # x axis row and label row below
     xs, ys = list(curve[0]), list(curve[1])
     y_top = max([*ys, *(band[1] if band else []), *(r[1] for r in readings), 0.0])
-    y_max = nice_ceiling(y_top * 1.02)
+    y_max = round_up(y_top * 1.02)
     x_max = round_up(max(turns_max, *(r[0] for r in readings), 1.0))
     sx = (2 * plot_w - 1) / x_max
     sy = (4 * plot_h - 1) / y_max

@@ -82,7 +82,7 @@ class MonitorScreen(Screen[None]):
         self.last: Figures | None = None
         self.last_temp = "20 degC"
         self.frames = 0       # renders done (the tests read it to check the rate cap)
-        self._closed = False
+        self._control_closed = False
 
     # ----- layout
     def compose(self) -> ComposeResult:
@@ -293,8 +293,8 @@ class MonitorScreen(Screen[None]):
         self.app.exit()
 
     def close_control(self, reason: str) -> None:
-        if not self._closed:
-            self._closed = True
+        if not self._control_closed:
+            self._control_closed = True
             try:
                 self.control.close(reason)
             except WinderError as err:

@@ -137,7 +137,12 @@ def fill_level(fill: float) -> str:
 
 def remaining_seconds(turns: float, planned: float, rpm: float,
                       schedule: Any | None = None) -> float | None:
-    """Seconds to the planned turns: at ``rpm`` if turning, else at the scheduled speeds."""
+    """Seconds to the planned turns: at ``rpm`` if turning, else by the schedule.
+
+    By the schedule: each pass's estimated time (its ``time_s``, which includes
+    speed changes at the reversals; else turns / rpm), pro rata for the part of
+    the pass still to wind.
+    """
     left = max(0.0, planned - turns)
     if left == 0:
         return 0.0
@@ -147,11 +152,17 @@ def remaining_seconds(turns: float, planned: float, rpm: float,
         return None
     total = 0.0
     for p in schedule.passes:
-        start = float(p.turns_end) - float(p.turns)
-        done_in_pass = min(max(turns - start, 0.0), float(p.turns))
-        todo = float(p.turns) - done_in_pass
-        if todo > 0 and p.rpm > 0:
-            total += todo / float(p.rpm) * 60.0
+        n = float(p.turns)
+        if n <= 0:
+            continue
+        start = float(p.turns_end) - n
+        todo = n - min(max(turns - start, 0.0), n)
+        if todo <= 0:
+            continue
+        t = float(getattr(p, "time_s", 0.0) or 0.0)
+        if t <= 0 and p.rpm > 0:
+            t = n / float(p.rpm) * 60.0
+        total += t * todo / n
     return total
 
 
