@@ -21,6 +21,9 @@ Rows (key: what is measured)
 ``ingest``     a host process (``WinderLink`` + session ``Runner`` + fsync'ed journal)
                reading a flood of status lines from ``winder sim --pty``: lines per
                host CPU-second, / 115200-baud line rate
+``wind``       a whole ``winder wind --headless`` against the simulator at 1000 x
+               speed-up: turns per second of winding / a 3000 rpm spindle, with the
+               command's CPU time and peak RSS
 ``replay``     ``Session.open`` (journal replay + state rebuild) of 100,000 events
 ``monitor``    CPU time / wall time of a headless monitor under a 50 Hz count stream
 ``startup``    ``winder plan COIL --json`` / ``python -c 'import numpy, pint'`` (and
@@ -89,6 +92,7 @@ def _rows() -> list[tuple[str, str, Callable[[bool], Row]]]:
         ("schedule", "schedule, 10,000-turn scatter", core_rows.schedule_row),
         ("codec", "codec parse rate", link_rows.codec_row),
         ("ingest", "driver + journal ingest (pty, sim)", link_rows.ingest_row),
+        ("wind", "headless wind at full speed-up", link_rows.wind_row),
         ("replay", "replay, 100,000-event journal", session_rows.replay_row),
         ("monitor", "monitor at 50 Hz counts", monitor_rows.monitor_row),
         ("startup", "start-up, winder plan --json", startup.startup_row),
@@ -97,8 +101,8 @@ def _rows() -> list[tuple[str, str, Callable[[bool], Row]]]:
 
 
 #: Row keys in table order.
-ROWS = ("planner", "resist", "gauges", "schedule", "codec", "ingest", "replay", "monitor",
-        "startup", "memory")
+ROWS = ("planner", "resist", "gauges", "schedule", "codec", "ingest", "wind", "replay",
+        "monitor", "startup", "memory")
 
 
 def run(quick: bool = False, only: set[str] | None = None,

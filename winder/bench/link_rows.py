@@ -141,3 +141,57 @@ def ingest_row(quick: bool) -> Row:
                      f"{res['dropped_events']} events dropped"),
                value=ratio, unit="x", extra={**res, "offered_per_s": n / flood_s,
                                              "line_rate": floor, "line_bytes": mean})
+
+
+SPINDLE_RPM = 3000.0        # the fastest spindle the simulator (and its PASS check) accepts
+WIND_SPEEDUP = 1000.0
+
+
+def wind_row(quick: bool) -> Row:
+    """A whole ``winder wind --headless`` against the controller simulator at full speed-up.
+
+    The shipped 6.2 kohm sensing coil, as a maker would run it; the sim runs its
+    motion ``WIND_SPEEDUP`` times faster than real time (its status clock stays
+    real). Figure: turns tracked and journaled per second of winding (from the
+    session's own report) as a ratio to a 3000 rpm spindle (50 turns/s), with
+    the host command's CPU time and peak RSS (``ru_maxrss`` via
+    :func:`~winder.bench.measure.run_with_rusage`).
+    """
+    gone = missing("winder.cli.session_cmd", "winder.session.runner", "winder.link.simproc")
+    if gone:
+        return Row("wind", "", gone, verdict="n/a")
+    from winder.bench.measure import run_with_rusage
+    from winder.link.simproc import start_sim
+    from winder.profile import examples_dir
+    from winder.session.report import build_report
+    from winder.session.session import Session
+
+    coil = examples_dir() / "coils" / ("driver-8ohm.yaml" if quick else "sense-6k2.yaml")
+    with tempfile.TemporaryDirectory(prefix="winder-bench-") as data, \
+            start_sim(mode="controller", speedup=WIND_SPEEDUP) as sim:
+        sdir = f"{data}/wind"
+        proc, use = run_with_rusage(
+            [sys.executable, "-m", "winder", "wind", str(coil), "--port", sim.device,
+             "--headless", "--quiet", "--session", sdir], child_env(data))
+        if use["rc"] != 0:
+            raise RuntimeError(f"winder wind exited {use['rc']}: "
+                               f"{' '.join((proc.stderr or proc.stdout).split())[-300:]}")
+        truth = sim.truth()
+        sess = Session.open(sdir)
+        rep = build_report(sess)
+        events = sess.state.events
+        sess.close()
+    turns = float(rep["turns_wound"])
+    winding = float(rep["winding_s"]) or float("nan")
+    rate = turns / winding
+    floor = SPINDLE_RPM / 60.0
+    ratio = rate / floor
+    ok = ratio >= 1.0 and turns == truth["coil_turns"]
+    return Row("wind", "", f"{rate:,.0f} turns/s = {ratio:.0f} x a {SPINDLE_RPM:.0f} rpm "
+               f"spindle; host {use['cpu_s']:.1f} CPU-s, peak {use['maxrss_kb'] / 1024:.0f} MB",
+               ">= 1 x (ours)", verdict(ok),
+               note=f"{turns:,.0f} turns ({truth['coil_turns']:,.0f} on the simulated coil) in "
+                    f"{winding:.1f} s of winding, {use['wall_s']:.1f} s for the whole command "
+                    f"(start-up, readings); {events} journal events",
+               value=ratio, unit="x", extra={"report_turns": turns, "winding_s": winding,
+                                             **use})

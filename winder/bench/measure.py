@@ -119,3 +119,35 @@ def alternating(cmds: dict[str, Sequence[str]], runs: int, env: dict[str, str], 
             wall[k].append(w)
             cpu[k].append(c)
     return wall, cpu
+
+
+_WRAPPER = (
+    "import json, resource, subprocess, sys, time\n"
+    "t0 = time.perf_counter()\n"
+    "p = subprocess.run(sys.argv[2:], stdin=subprocess.DEVNULL)\n"
+    "wall = time.perf_counter() - t0\n"
+    "r = resource.getrusage(resource.RUSAGE_CHILDREN)\n"
+    "json.dump({'rc': p.returncode, 'wall_s': wall, 'cpu_s': r.ru_utime + r.ru_stime,\n"
+    "           'maxrss_kb': r.ru_maxrss}, open(sys.argv[1], 'w'))\n"
+)
+
+
+def run_with_rusage(cmd: Sequence[str], env: dict[str, str], *, timeout: float = 120.0
+                    ) -> tuple[subprocess.CompletedProcess, dict[str, float]]:
+    """Run ``cmd`` under a small wrapper python; return its output and its own rusage.
+
+    The wrapper reads ``ru_maxrss`` (kB), user + system CPU seconds and wall
+    seconds of ``cmd`` from ``RUSAGE_CHILDREN``. Linux carries a parent's RSS
+    high-water mark into a child over fork and exec, so measuring the child of
+    this (large) benchmark process directly would report the benchmark's peak; the
+    wrapper's own peak is a bare interpreter's, below any winder command's.
+    """
+    import tempfile
+
+    with tempfile.NamedTemporaryFile("r", suffix=".json") as out:
+        proc = subprocess.run([sys.executable, "-c", _WRAPPER, out.name, *cmd],
+                              capture_output=True, text=True, env=env, timeout=timeout)
+        text = out.read()
+    if not text:
+        raise RuntimeError(f"wrapper failed: {' '.join(proc.stderr.split())[-300:]}")
+    return proc, json.loads(text)
