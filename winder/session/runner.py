@@ -348,8 +348,9 @@ class Runner:
     def _clear_device(self) -> None:
         """Stop with an empty queue and no latched faults (statuses older are ignored)."""
         self._safe(self.link.stop)
-        if "clear" in dir(self.link):
-            self._safe(self.link.clear)
+        clear = getattr(self.link, "clear", None)
+        if clear is not None:
+            self._safe(clear)
         self._fresh_after = time.monotonic()
         if self.status is not None:
             self.status = _with_queued(self.status, 0)
@@ -512,7 +513,7 @@ class Runner:
 
     def _check_goal(self, st: Any) -> None:
         goal = self._segment_goal
-        if goal is None or self._want_reading:
+        if goal is None or self._want_reading in ("milestone", "final"):
             return
         idle = st.state in ("idle",) and st.queued == 0 and not self._pending
         if not idle or st.turns < goal - 0.5:
@@ -553,17 +554,21 @@ class Runner:
     def _on_device_event(self, ev: Any) -> None:
         kind = ev.kind
         if kind == "reading" and "ohm" in ev.data:
-            why = self._want_reading or "device"
-            self._want_reading = None
             turns = self.turns
             c = ev.data.get("c")
             if isinstance(c, (int, float)) and self.status is not None:
                 turns = float(self.status.turns) + (float(c) - self.status.count) / self._cpr()
+            why = self._want_reading
+            goal = self._segment_goal
+            early = why in ("final", "milestone") and goal is not None and turns < goal - 0.5
+            if not early:   # (an answer to an earlier request is just a reading)
+                self._want_reading = None
+            final = why == "final" and not early
             self._add_reading(Reading(turns, float(ev.data["ohm"]), None,
-                                      "final" if why == "final" else ""), source="device")
-            if why == "final":
-                self._finish("stop point reached", turns)
-            elif why == "milestone":
+                                      "final" if final else ""), source="device")
+            if final:
+                self._finish("stop point reached", self.turns)
+            elif why == "milestone" and not early:
                 self._after_milestone()
         elif kind in ("stall", "estop", "limit"):
             self._fault(kind + (f" ({ev.data.get('side')})" if ev.data.get("side") else ""))
