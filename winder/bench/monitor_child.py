@@ -70,6 +70,38 @@ def feeder(control: StreamControl, stop: threading.Event, hz: float, rpm: float,
             feed.reading(turns, turns * ohm_per_turn, 22.5)
 
 
+def attribute() -> dict[str, list[float]]:
+    """Time every widget's ``render_lines`` and the monitor's ``render_batch`` (CPU s).
+
+    Returns the live table {name: [cpu seconds, calls]}; the wrapping costs two
+    clock reads per call, which is negligible next to what it measures.
+    """
+    from textual.widget import Widget
+
+    from winder.tui.monitor_view import MonitorScreen
+
+    table: dict[str, list[float]] = {}
+
+    def wrap(cls: type, name: str, label) -> None:
+        orig = getattr(cls, name)
+
+        def timed(self, *a, **k):
+            c0 = time.process_time()
+            try:
+                return orig(self, *a, **k)
+            finally:
+                cell = table.setdefault(label(self), [0.0, 0])
+                cell[0] += time.process_time() - c0
+                cell[1] += 1
+
+        setattr(cls, name, timed)
+
+    wrap(Widget, "render_lines", lambda w: f"{type(w).__name__}#{w.id or '-'} render")
+    wrap(MonitorScreen, "render_batch", lambda w: "MonitorScreen.render_batch (figures, "
+                                                  "widget updates)")
+    return table
+
+
 async def _run(args: argparse.Namespace) -> dict:
     from winder.planner import Target, make_plan
     from winder.profile import examples_dir, load_coil
@@ -82,6 +114,7 @@ async def _run(args: argparse.Namespace) -> dict:
     plan = make_plan(coil, force=True)
     schedule = build_schedule(plan)
     control = StreamControl()
+    costs = attribute() if args.attribute else {}
     app = WinderApp(control=control, plan=plan, schedule=schedule, cautioned=True)
     stop = threading.Event()
     fed = [0]
@@ -97,16 +130,19 @@ async def _run(args: argparse.Namespace) -> dict:
         screen = app.monitor
         frames0 = screen.frames if screen is not None else 0
         fed0 = fed[0]
+        costs.clear()
         cpu0, wall0 = time.process_time(), time.perf_counter()
         await asyncio.sleep(args.seconds)
         cpu, wall = time.process_time() - cpu0, time.perf_counter() - wall0
         frames = (screen.frames if screen is not None else 0) - frames0
+        top = sorted(costs.items(), key=lambda kv: -kv[1][0])[:5]
         stop.set()
     if thread.is_alive():
         thread.join(2.0)
     return {"cpu_s": cpu, "wall_s": wall, "frames": frames, "fed": fed[0] - fed0,
             "fed_total": fed[0], "maxrss_kb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss,
-            "hwm_kb": peak_rss_kb(), "plan_turns": plan.turns}
+            "hwm_kb": peak_rss_kb(), "plan_turns": plan.turns,
+            "costs": [{"what": k, "cpu_s": v[0], "calls": v[1]} for k, v in top]}
 
 
 def peak_rss_kb() -> int:
@@ -137,6 +173,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--log-every", type=float, default=1.0)
     ap.add_argument("--reading-every", type=float, default=0.0)
     ap.add_argument("--turns", type=int, default=0, help="planned turns (default: the coil's)")
+    ap.add_argument("--attribute", action="store_true",
+                    help="report the CPU cost of each widget's rendering")
     args = ap.parse_args(argv)
     print(json.dumps(asyncio.run(_run(args))), flush=True)
     return 0

@@ -35,14 +35,18 @@ def monitor_row(quick: bool) -> Row:
         return Row("monitor", "", gone, verdict="n/a")
     secs = 0.6 if quick else 6.0
     r = run_child_json(["-m", "winder.bench.monitor_child", "--hz", "50", "--seconds",
-                        str(secs), "--warmup", "0.3" if quick else "1.5"])
+                        str(secs), "--warmup", "0.3" if quick else "1.5", "--attribute"])
     pct = 100 * r["cpu_s"] / r["wall_s"]
     fps = r["frames"] / r["wall_s"]
+    per_frame = r["cpu_s"] / max(r["frames"], 1)
+    where = "; ".join(f"{c['what']} {c['cpu_s'] / max(r['frames'], 1) * 1e3:.1f} ms/frame "
+                      f"({c['calls']} calls)" for c in r.get("costs", [])[:4])
     return Row("monitor", "", f"{pct:.1f} % of one core ({r['fed'] / r['wall_s']:.0f} counts/s "
                f"in, {fps:.1f} frames/s drawn)", f"< {MONITOR_PCT:g} %",
                verdict(pct < MONITOR_PCT),
                note=f"{r['wall_s']:.1f} s measured after warm-up; CPU of the whole process "
-                    "(UI, Textual headless driver, feeder thread)",
+                    f"(UI, Textual headless driver, feeder thread): {per_frame * 1e3:.0f} ms "
+                    f"per frame drawn; most CPU: {where}",
                value=pct, unit="%", extra=r)
 
 
