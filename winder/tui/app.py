@@ -77,7 +77,8 @@ class WinderApp(App[int]):
             except WinderError as err:
                 self.call_from_thread(self.notify, str(err), severity="error", timeout=8)
                 return
-            self.call_from_thread(self._open_monitor, control, plan, schedule, True)
+            self.call_from_thread(self._open_monitor, control, getattr(control, "plan", plan),
+                                  getattr(control, "schedule", schedule), True)
 
         self.run_worker(work, thread=True, name="start-wind", exit_on_error=False)
 

@@ -43,6 +43,7 @@ class Status:
     link: str = "offline"
     link_detail: str = ""
     faults: tuple[str, ...] = ()
+    stop_turns: float | None = None   # where the session stops (None: the plan's turns)
 
 
 @dataclass(frozen=True)

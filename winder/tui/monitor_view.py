@@ -63,6 +63,7 @@ class MonitorScreen(Screen[None]):
         Binding("j", "mark_splice", "Splice"),
         Binding("n", "note", "Note"),
         Binding("x", "stop", "Stop"),
+        Binding("a", "accept_stop", "Accept stop", show=False),
         Binding("q", "quit_wind", "Quit"),
     ]
 
@@ -83,6 +84,8 @@ class MonitorScreen(Screen[None]):
         self.last_temp = "20 degC"
         self.frames = 0       # renders done (the tests read it to check the rate cap)
         self._control_closed = False
+        self._last_line = ""
+        self._repeats = 0
 
     # ----- layout
     def compose(self) -> ComposeResult:
@@ -116,7 +119,8 @@ class MonitorScreen(Screen[None]):
                     yield ChartView(id="chart")
                 with Vertical(id="log-panel", classes="panel") as p:
                     p.border_title = "events"
-                    yield RichLog(id="log", wrap=True, markup=False, max_lines=1000)
+                    yield RichLog(id="log", wrap=True, markup=False, max_lines=1000,
+                                  min_width=20)
         yield Footer()
 
     def on_mount(self) -> None:
@@ -144,15 +148,27 @@ class MonitorScreen(Screen[None]):
         if batch.dropped:
             log.write(Text(f"… {batch.dropped} older events not shown", "#8a94a6"))
         for line in batch.lines:
+            if line.text == self._last_line:        # a device repeating itself: count it
+                self._repeats += 1
+                continue
+            self._flush_repeats(log)
+            self._last_line = line.text
             log.write(self._log_text(line))
         if not (batch.changed or batch.readings or force):
             return
         self.status = batch.status
         self.frames += 1
         f = figures(self.plan, batch.status.turns, batch.status.rpm,
-                    schedule=self.schedule, readings=self.readings)
+                    schedule=self.schedule, readings=self.readings,
+                    stop_turns=batch.status.stop_turns)
         self.last = f
         self._show(f, batch.status)
+
+    def _flush_repeats(self, log: RichLog) -> None:
+        if self._repeats:
+            log.write(Text(f"         … the line above {self._repeats} more time"
+                           f"{'s' if self._repeats > 1 else ''}", "#8a94a6"))
+            self._repeats = 0
 
     def _log_text(self, line: LogLine) -> Text:
         stamp = time.strftime("%H:%M:%S", self.clock(line.at))
@@ -240,7 +256,8 @@ class MonitorScreen(Screen[None]):
     def _after_caution(self, accepted: bool | None) -> None:
         if accepted:
             self.cautioned = True
-            self.control.feed.log("caution acknowledged", "info")
+            self._do("note", self.control.mark, "note",
+                     "safety caution acknowledged before the motor ran")
             self.action_start()
         else:
             self.control.feed.log("motor not started: caution not acknowledged "
@@ -254,6 +271,12 @@ class MonitorScreen(Screen[None]):
 
     def action_stop(self) -> None:
         self._do("stop", self.control.stop)
+
+    def action_accept_stop(self) -> None:
+        """Move the stop point to the one proposed after a reading."""
+        accept = getattr(self.control, "accept_stop", None)
+        if accept is not None:
+            self._do("accept", accept)
 
     def action_reading(self) -> None:
         turns = self.status.turns
@@ -276,10 +299,16 @@ class MonitorScreen(Screen[None]):
         self.app.push_screen(EntryDialog(title, hint, placeholder="optional"), done)
 
     def action_mark_break(self) -> None:
-        # Stop first: the wire is loose; then ask what happened.
-        self._do("stop", self.control.stop)
-        self._ask_mark("break", "Wire break", "Marked at the count now; the motor is stopped. "
-                       "Note (optional):")
+        """Mark a wire break now (the motor stops), then ask for an optional note."""
+        self._do("break", self.control.mark, "break", "")
+
+        def done(text: object | None) -> None:
+            if text is not None and str(text).strip():
+                self._do("note", self.control.mark, "note", f"wire break: {str(text).strip()}")
+
+        self.app.push_screen(EntryDialog("Wire break", "Marked at the count now; the motor "
+                                         "is stopped. What happened (optional)?",
+                                         placeholder="optional"), done)
 
     def action_mark_splice(self) -> None:
         self._ask_mark("splice", "Splice", "Joined the wire? Note where and how (optional):")

@@ -168,9 +168,14 @@ def remaining_seconds(turns: float, planned: float, rpm: float,
 
 def figures(plan: Any, turns: float, rpm: float = 0.0, *, schedule: Any | None = None,
             readings: Sequence[Reading] = (),
-            estimate: Callable[[float], Estimate] | None = None) -> Figures:
-    """Work out every monitor figure for a count of ``turns`` turning at ``rpm``."""
-    planned = float(plan.turns)
+            estimate: Callable[[float], Estimate] | None = None,
+            stop_turns: float | None = None) -> Figures:
+    """Work out every monitor figure for a count of ``turns`` turning at ``rpm``.
+
+    ``stop_turns`` is the session's stop point when it differs from the plan's
+    turns (moved after a calibration).
+    """
+    planned = float(stop_turns or plan.turns)
     pass_index = direction = guide = None
     count = 0
     if schedule is not None and schedule.passes:

@@ -1,0 +1,262 @@
+"""Setting up a winding for the terminal UI: link, session and runner.
+
+:class:`WindSetup` is the ``start_wind`` the plan view calls on Enter: it opens
+the link, picks the machine from the device's capabilities (or a machine
+profile), schedules the plan for that machine, freezes the coil as wound into a
+new session and returns a :class:`~winder.tui.runner.RunnerControl`.
+:func:`resume_control` does the same for an existing session.
+
+``winder wind`` (without ``--headless``) runs :func:`run_wind` and
+``winder resume`` runs :func:`run_resume`.
+"""
+
+from __future__ import annotations
+
+import queue
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+import yaml
+
+from winder.errors import InputError
+from winder.tui.runner import RunnerControl
+
+
+def _mm(m: float) -> str:
+    return f"{m * 1e3:.6g} mm"
+
+
+def coil_mapping(coil: Any) -> dict[str, Any]:
+    """The coil as a coil-profile mapping (bobbin inline), the inverse of the profile loader."""
+    b = coil.bobbin
+    if hasattr(b.core, "diameter_m"):
+        core: dict[str, Any] = {"shape": "round", "diameter": _mm(b.core.diameter_m)}
+    else:
+        core = {"shape": "rect", "width": _mm(b.core.width_m), "length": _mm(b.core.length_m)}
+        if b.core.corner_radius_m:
+            core["corner_radius"] = _mm(b.core.corner_radius_m)
+    bobbin: dict[str, Any] = {"name": b.name, "core": core,
+                              "window": {"width": _mm(b.window_width_m),
+                                         "height": _mm(b.window_height_m)},
+                              "clearance": {"ends": _mm(b.clearance_ends_m),
+                                            "top": _mm(b.clearance_top_m)}}
+    if b.reference_inductance is not None:
+        henry, turns = b.reference_inductance
+        bobbin["reference_inductance"] = {"inductance": f"{henry:.9g} H", "turns": int(turns)}
+    w = coil.wire
+    wire: dict[str, Any] = {"size": w.size_name, "insulation": w.insulation}
+    if getattr(w, "od_source", "") == "measured":
+        wire["od"] = _mm(w.od_m)
+    if w.material.name != "copper":
+        wire["material"] = w.material.name
+    t = coil.target
+    target: dict[str, Any]
+    if t.kind == "fill":
+        target = {"fill": True}
+    elif t.kind == "turns":
+        target = {"turns": int(t.value)}
+    else:
+        target = {"resistance": f"{float(t.value):.9g} ohm"}
+    s = coil.style
+    style: dict[str, Any] = {"kind": s.kind}
+    if s.packing is not None:
+        style["packing"] = float(s.packing)
+    if s.kind == "scatter":
+        style["pitch_range"] = [float(s.pitch_range[0]), float(s.pitch_range[1])]
+        if s.taper:
+            style["taper"] = float(s.taper)
+    if s.seed is not None:
+        style["seed"] = int(s.seed)
+    return {"name": coil.name, "bobbin": bobbin, "wire": wire, "target": target,
+            "style": style}
+
+
+def coil_yaml(coil: Any, note: str = "") -> str:
+    """A self-contained coil profile for ``coil`` (what a session freezes as coil.yaml)."""
+    head = f"# {note}\n" if note else ""
+    return head + yaml.safe_dump(coil_mapping(coil), sort_keys=False, allow_unicode=True)
+
+
+def _flange_mm(machine: Any) -> float:
+    """Machine position of the start flange, mm (0 without a traverse)."""
+    tr = getattr(machine, "traverse", None)
+    return float(getattr(tr, "start_flange_m", 0.0) or 0.0) * 1e3
+
+
+def _open_link(port: str, events: queue.Queue) -> Any:
+    from winder.link import WinderLink
+
+    link = WinderLink(port, events=events)
+    link.open()
+    return link
+
+
+class WindSetup:
+    """``start_wind(coil, plan, schedule)`` for the plan view: a new session on ``port``."""
+
+    def __init__(self, port: str, *, machine_file: str | None = None,
+                 session_dir: str | Path | None = None, root: Path | None = None,
+                 stop_at_resistance: bool = False, auto_continue: bool = False,
+                 original: Any = None, original_path: str | Path | None = None,
+                 on_closed: list[Callable[[], None]] | None = None):
+        self.port = port
+        self.machine_file = machine_file
+        self.session_dir = session_dir
+        self.root = root
+        self.stop_at_resistance = stop_at_resistance
+        self.auto_continue = auto_continue
+        self.original = original
+        self.original_path = original_path
+        self.on_closed = list(on_closed or [])
+        self.session: Any = None
+
+    def frozen_yaml(self, coil: Any) -> str:
+        """The file as written when the coil is unchanged, else the coil as changed."""
+        if self.original_path is not None and coil == self.original:
+            from winder.session.prepare import frozen_coil_yaml
+
+            return frozen_coil_yaml(Path(self.original_path))
+        return coil_yaml(coil, "Coil as wound (changed in the plan view).")
+
+    def __call__(self, coil: Any, plan: Any, schedule: Any) -> RunnerControl:
+        from winder.schedule import build_schedule
+        from winder.session.prepare import Prepared, curve_for, machine_for, started_fields
+        from winder.session.runner import Runner
+        from winder.session.session import Session
+
+        if plan.fill > 1.0:
+            raise InputError("the plan does not fit the usable height", key="target")
+        events: queue.Queue = queue.Queue(maxsize=10000)
+        link = _open_link(self.port, events)
+        try:
+            info = link.info
+            machine = machine_for(self.machine_file, info.capabilities, info.counts_per_rev)
+            sched = build_schedule(plan, machine)
+            prep = Prepared(coil, plan, sched, machine, self.frozen_yaml(coil), curve_for(plan))
+            sess = Session.create(coil_name=coil.name, coil_yaml=prep.coil_yaml,
+                                  plan=plan.to_dict(), schedule=sched.to_dict(),
+                                  started=started_fields(prep, info.to_dict()),
+                                  session_dir=self.session_dir, root=self.root)
+        except BaseException:
+            link.close()
+            raise
+        self.session = sess
+
+        def make_runner(on_update: Callable[[Any], None]) -> Any:
+            return Runner(sess, link, schedule=sched, machine=machine,
+                          stop_at_resistance=self.stop_at_resistance,
+                          auto_continue=self.auto_continue, events=events, on_update=on_update)
+
+        control = RunnerControl(link=link, session=sess, make_runner=make_runner,
+                                begin=lambda r: r.start(), traverse=machine.drives_traverse,
+                                guide_offset_mm=_flange_mm(machine), on_closed=self.on_closed)
+        control.plan, control.schedule = plan, sched  # type: ignore[attr-defined]
+        control.feed.log(f"session {sess.id} at {sess.path}", "info")
+        return control
+
+
+def resume_control(session_ref: str | Path, *, port: str | None = None,
+                   reading: Any = None, accept_correction: bool = False,
+                   stop_at_resistance: bool = False, auto_continue: bool = False
+                   ) -> tuple[RunnerControl, Any, Any]:
+    """(control, plan, schedule) for resuming a session; the runner resumes on start()."""
+    from winder.session.prepare import load_frozen
+    from winder.session.runner import Runner
+    from winder.session.session import Session
+
+    sess = Session.open(session_ref, writable=True)
+    link = None
+    try:
+        st = sess.state
+        if st.state in ("finished", "aborted"):
+            raise InputError(f"session {sess.id} is already {st.state}; see `winder report "
+                             f"{sess.id}`", where="SESSION")
+        port = port or st.device.get("url")
+        if not port:
+            raise InputError("give --port (the session does not know its port)", where="--port")
+        plan, sched = load_frozen(sess.path)
+        if plan is None:
+            raise InputError("the session's coil cannot be planned again for the monitor; "
+                             "resume with --headless", where="SESSION")
+        machine = sched.machine if sched is not None else None
+        events: queue.Queue = queue.Queue(maxsize=10000)
+        link = _open_link(port, events)
+    except BaseException:
+        if link is not None:
+            link.close()
+        sess.close()
+        raise
+
+    def make_runner(on_update: Callable[[Any], None]) -> Any:
+        return Runner(sess, link, schedule=sched, machine=machine,
+                      stop_at_resistance=stop_at_resistance, auto_continue=auto_continue,
+                      events=events, on_update=on_update)
+
+    def begin(runner: Any) -> None:
+        got = reading
+        if got is None and (link.info.boot_id or "") != (sess.state.boot_id or "") \
+                and runner.can_measure:
+            from winder.session.calibration import Reading
+
+            ohm = runner.measure_now()
+            if ohm is not None:
+                got = Reading(0.0, ohm, None, "device reading at resume")
+        if got is not None:
+            from winder.session.calibration import Reading
+
+            got = Reading(sess.state.turns, got.ohm, got.temp_c, got.note)
+        rec = runner.resume(got, accept_correction=accept_correction)
+        if rec.suggested_turns is not None and not rec.same_boot and not accept_correction:
+            control.feed.log(f"the reading suggests {rec.suggested_turns:.0f} +/- "
+                             f"{rec.suggested_pm:.0f} turns; resume with --accept-correction "
+                             "to adopt it", "warn")
+
+    traverse = bool(getattr(machine, "drives_traverse", True))
+    control = RunnerControl(link=link, session=sess, make_runner=make_runner, begin=begin,
+                            traverse=traverse, guide_offset_mm=_flange_mm(machine))
+    control.feed.log(f"resuming {sess.id} at {sess.state.turns:g} of "
+                     f"{sess.state.stop_turns:g} turns; space continues", "info")
+    return control, plan, sched
+
+
+def run_wind(coil_path: str | Path, *, port: str, machine_file: str | None = None,
+             session_dir: str | Path | None = None, stop_at_resistance: bool = False,
+             auto_continue: bool = False) -> int:
+    """``winder wind COIL --port PORT``: the plan view, then the caution and the monitor."""
+    from winder.profile import load_coil
+    from winder.tui import run_plan
+
+    coil = load_coil(coil_path)
+    setup = WindSetup(port, machine_file=machine_file, session_dir=session_dir,
+                      stop_at_resistance=stop_at_resistance, auto_continue=auto_continue,
+                      original=coil, original_path=coil_path)
+    rc = run_plan(coil, start_wind=setup)
+    if setup.session is not None:
+        _farewell(setup.session)
+    return rc
+
+
+def run_resume(session_ref: str | Path, *, port: str | None = None, reading: Any = None,
+               accept_correction: bool = False, stop_at_resistance: bool = False,
+               auto_continue: bool = False) -> int:
+    """``winder resume SESSION``: the monitor; space (after the caution) resumes."""
+    from winder.tui import run_monitor
+
+    control, plan, sched = resume_control(session_ref, port=port, reading=reading,
+                                          accept_correction=accept_correction,
+                                          stop_at_resistance=stop_at_resistance,
+                                          auto_continue=auto_continue)
+    rc = run_monitor(control, plan, sched, title=f"{plan.coil.name} · resume")
+    _farewell(control.session)
+    return rc
+
+
+def _farewell(session: Any) -> None:
+    st = session.state
+    if st.state == "finished":
+        print(f"session {session.id}: finished at {st.turns:g} turns; "
+              f"`winder report {session.id}`")
+    else:
+        print(f"session {session.id}: {st.state} at {st.turns:g} turns, motor stopped. "
+              f"Resume with: winder resume {session.path}")
