@@ -107,6 +107,7 @@ async def _run(args: argparse.Namespace) -> dict:
     from winder.profile import examples_dir, load_coil
     from winder.schedule import build_schedule
     from winder.tui.app import WinderApp
+    from winder.tui.monitor_view import REFRESH_HZ
 
     coil = load_coil(examples_dir() / "coils" / "sense-6k2.yaml")
     if args.turns:
@@ -141,7 +142,7 @@ async def _run(args: argparse.Namespace) -> dict:
         thread.join(2.0)
     return {"cpu_s": cpu, "wall_s": wall, "frames": frames, "fed": fed[0] - fed0,
             "fed_total": fed[0], "maxrss_kb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss,
-            "hwm_kb": peak_rss_kb(), "plan_turns": plan.turns,
+            "hwm_kb": peak_rss_kb(), "plan_turns": plan.turns, "refresh_hz": REFRESH_HZ,
             "costs": [{"what": k, "cpu_s": v[0], "calls": v[1]} for k, v in top]}
 
 

@@ -39,6 +39,7 @@ def monitor_row(quick: bool) -> Row:
     pct = 100 * r["cpu_s"] / r["wall_s"]
     fps = r["frames"] / r["wall_s"]
     per_frame = r["cpu_s"] / max(r["frames"], 1)
+    hz = float(r.get("refresh_hz", 12.0))
     where = "; ".join(f"{c['what']} {c['cpu_s'] / max(r['frames'], 1) * 1e3:.1f} ms/frame "
                       f"({c['calls']} calls)" for c in r.get("costs", [])[:4])
     return Row("monitor", "", f"{pct:.1f} % of one core ({r['fed'] / r['wall_s']:.0f} counts/s "
@@ -46,7 +47,8 @@ def monitor_row(quick: bool) -> Row:
                verdict(pct < MONITOR_PCT),
                note=f"{r['wall_s']:.1f} s measured after warm-up; CPU of the whole process "
                     f"(UI, Textual headless driver, feeder thread): {per_frame * 1e3:.0f} ms "
-                    f"per frame drawn; most CPU: {where}",
+                    f"per frame drawn, so the monitor's own {hz:g} Hz refresh would need "
+                    f"{min(100.0, 100 * per_frame * hz):.0f} % of a core; most CPU: {where}",
                value=pct, unit="%", extra=r)
 
 
