@@ -41,7 +41,9 @@ async def test_caution_must_be_acknowledged_before_the_motor_runs():
         assert isinstance(app.screen, CautionScreen)
         await pilot.press("y")
         await pilot.pause()
-        assert control.calls == [("start",)]
+        # The acknowledgement goes into the journal, then the motor starts.
+        assert control.calls == [("mark", "note", "safety caution acknowledged before the "
+                                  "motor ran"), ("start",)]
 
 
 async def test_count_rises_on_screen():
@@ -171,12 +173,12 @@ async def test_pause_stop_break_note_and_quit():
         assert control.calls[-1] == ("resume",)
         await pilot.press("b")
         await pilot.pause()
-        assert control.calls[-1] == ("stop",)          # the motor stops first
+        assert control.calls[-1] == ("mark", "break", "")   # at once (the runner stops)
         assert isinstance(app.screen, EntryDialog)
         app.screen.query_one(Input).value = "near the start flange"
         await pilot.press("enter")
         await pilot.pause()
-        assert control.calls[-1] == ("mark", "break", "near the start flange")
+        assert control.calls[-1] == ("mark", "note", "wire break: near the start flange")
         await pilot.press("n")
         await pilot.pause()
         app.screen.query_one(Input).value = "tension up"
