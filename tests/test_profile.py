@@ -165,3 +165,9 @@ def test_examples_dir_in_a_regular_install(tmp_path):
                        cwd=tmp_path, env={**os.environ, "PYTHONPATH": str(tmp_path)}, timeout=60)
     assert r.returncode == 0, r.stderr
     assert Path(r.stdout.strip()) == tmp_path / "winder" / "examples"
+
+
+def test_wire_shorthand(tmp_path):
+    write(tmp_path, "bobbin.yaml", BOBBIN)
+    c = load_coil(write(tmp_path, "c.yaml", coil_text(wire="0.063 mm grade 1")))
+    assert c.wire.name == "0.063 mm grade 1"

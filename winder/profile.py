@@ -12,7 +12,8 @@ Coil (``profiles/coils/NAME.yaml``)::
 
     name: ...
     bobbin: ../bobbins/NAME.yaml   # relative to this file, a shipped bobbin's name, or a mapping
-    wire: {size: 42 AWG, insulation: heavy}   # optional od (measured) and material
+    wire: {size: 42 AWG, insulation: heavy}   # optional od (measured), material;
+                                              # or the shorthand: wire: 42 AWG heavy
     target: {resistance: 6.2 kohm}            # or {turns: 8000} or {fill: true}; exactly one
     style: {kind: scatter, packing: 0.8}      # optional; kind layer|orthocyclic|scatter
 
@@ -211,6 +212,11 @@ def _resolve_bobbin(ref: Any, coil_path: Path, where: str) -> Bobbin:
 
 
 def _wire(data: Any, where: str) -> Any:
+    if isinstance(data, str):  # shorthand: wire: 42 AWG heavy
+        from winder.wire import parse_wire
+
+        size, ins = parse_wire(data)
+        data = {"size": size} if ins is None else {"size": size, "insulation": ins}
     w = _mapping(data, where, "wire", WIRE_KEYS, {"size"})
     size = w["size"]
     if not isinstance(size, str):

@@ -322,7 +322,9 @@ def cmd_gauges(args: argparse.Namespace) -> int:
                               insulation=args.insulation, style=style,
                               max_turns=args.max_turns)
     except InputError as err:
-        raise InputError(err.message, where=err.key or "gauges") from None
+        where = {"insulation": "--insulation", "material": "--material"}.get(err.key or "",
+                                                                           err.key or "gauges")
+        raise InputError(err.message, where=where) from None
     if not options:
         raise InputError("no size of this series can be wound on the bobbin", where=args.bobbin)
     if args.json:
