@@ -155,7 +155,7 @@ def test_random_mutation_of_valid_lines(noise, where):
         pass
 
 
-@settings(max_examples=200)
+@settings(max_examples=100)
 @given(st.lists(st.integers(0, 2**32 - 1), min_size=1, max_size=20), st.data())
 def test_framer_reassembles_any_chunking(counts, data):
     stream = b"".join(encode_status(StatusReport(c, 0.0, None, "idle", 0, 0)) for c in counts)
@@ -231,7 +231,7 @@ kv_tokens = st.one_of(
 )
 
 
-@settings(max_examples=500)
+@settings(max_examples=150)
 @given(kind=st.sampled_from(["ST", "ACK", "NAK", "EV", "HELLO", "??"]),
        rest=st.lists(kv_tokens, max_size=12))
 def test_sealed_garbage_past_the_crc_raises_only_frame_errors(kind, rest):

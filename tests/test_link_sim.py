@@ -160,10 +160,10 @@ def test_motor_stops_within_the_watchdog_window_when_the_host_is_killed(sim_fact
         if host.poll() is None:
             host.kill()
         host.stdout.close()
-    # the watchdog window is 1 s from the last valid host line (heartbeat every 0.25 s);
-    # 0.3 s of slack covers the truth polling interval on a loaded machine
-    assert stopped_after < 1.3
-    assert 0.9 < t["since_host_s"] < 1.3
+    # the device trips 1 s after the last valid host line (5 ms ticks, plus scheduling);
+    # the wall-clock bound is loose because it includes process scheduling and polling
+    assert 1.0 <= t["watchdog_trip_s"] <= 1.1
+    assert stopped_after < 2.0
     assert "watchdog" in t["faults"] and t["state"] == "hold" and t["queued"] == 1
 
 
@@ -173,7 +173,7 @@ def test_reconnect_after_link_drop_keeps_the_count(sim_factory, links):
     link = links(sim.device, events=events)
     link.open()
     link.wait_for(lambda s: s.turns > 20, 10)
-    assert sim.control("drop 1.0")["ok"]
+    assert sim.control("drop 0.6")["ok"]
     lost = next_event(events, LinkLost, 5)
     assert lost.reason
     with pytest.raises(LinkDown):
@@ -243,7 +243,7 @@ def test_reboot_during_a_drop_is_reported_on_reconnect(sim_factory, links):
     time.sleep(0.4)
     kept = link.turns
     assert kept > 0
-    sim.control("drop 1.0")
+    sim.control("drop 0.6")
     sim.control("reboot")
     restored = next_event(events, LinkRestored, 10)
     assert restored.rebooted and restored.info.boot_id != info.boot_id

@@ -98,6 +98,7 @@ class SimDevice:
         self._crank_phase = self.rng.random() * 6.28
         self._rest_until = 0.0
         self.bad_lines = 0
+        self.watchdog_trip_s: float | None = None   # host silence when the watchdog tripped
 
     @property
     def has_motor(self) -> bool:
@@ -232,6 +233,7 @@ class SimDevice:
                 self.rpm = 0.0                        # drive disabled at once
                 self.state = "hold"
                 self.faults |= F_WDOG
+                self.watchdog_trip_s = now - self.last_host
             self._motor(dt)
         else:
             self._crank(dt)
@@ -342,7 +344,7 @@ class SimDevice:
             "queued": len(self.queue), "guide_mm": round(self.guide_mm, 4),
             "faults": sorted(faults_from_bits(self.faults)), "true_ohm": round(self.true_ohm(), 4),
             "mode": self.mode, "cpr": self.cpr, "sim_time_s": round(self.sim_time, 3),
-            "bad_lines": self.bad_lines,
+            "bad_lines": self.bad_lines, "watchdog_trip_s": self.watchdog_trip_s,
         }
 
 
