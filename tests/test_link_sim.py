@@ -496,3 +496,32 @@ def test_sim_cli_prints_device_path_last_on_first_line(run_cli):
     assert json.loads(second)["state"] == "idle"
     r = run_cli("sim", "--speedup", "0")
     assert r.returncode == 2 and "--speedup" in r.stderr
+
+
+def test_silence_is_link_loss_and_recovers(sim_factory, links):
+    sim = sim_factory(mode="counter", speedup=5)
+    events: queue.Queue = queue.Queue()
+    link = links(sim.device, events=events)
+    link.open()
+    sim.control("corrupt 1")                  # bytes still flow, but no valid line
+    lost = next_event(events, LinkLost, 5)
+    assert "no valid line" in lost.reason
+    sim.control("corrupt 0")
+    restored = next_event(events, LinkRestored, 10)
+    assert restored.rebooted is False
+
+
+def test_counter_wrap_is_followed_end_to_end(sim_factory, links):
+    sim = sim_factory(mode="counter", speedup=20, extra=["--counter-bits", "8",
+                                                          "--crank-rpm", "600"])
+    link = links(sim.device)
+    info = link.open()
+    assert info.wrap == 256
+    link.zero()
+    link.wait_for(lambda s: s.turns > 600, 20)
+    sim.control("crank 0")
+    time.sleep(0.5)
+    truth = sim.truth()
+    assert truth["count"] < 256
+    assert link.turns == pytest.approx(truth["coil_turns"], abs=1.0)
+    assert link.turns % 256 == truth["count"]
