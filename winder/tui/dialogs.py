@@ -116,7 +116,8 @@ class ReadingDialog(ModalScreen["ReadingEntry | None"]):
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog", id="reading-box"):
-            yield Static(f"Resistance reading at {self.turns:,.0f} turns", classes="dialog-title")
+            yield Static(f"Resistance reading at {self.turns:,.0f} turns".replace(",", " "),
+                         classes="dialog-title")
             hint = ("expected about " + format_si(self.expected_ohm, "ohm")
                     if self.expected_ohm else "")
             yield Label(f"Resistance (e.g. '5.92 kohm', '7.9 ohm')  {hint}")

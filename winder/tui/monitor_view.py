@@ -220,10 +220,14 @@ class MonitorScreen(Screen[None]):
             ("  calibrated" if e.calibrated else "  from the plan", "#6fa8c8"),
             ("\ntarget ", "#8a94a6"), (format_si(float(self.plan.resistance_ohm), "ohm"), "bold"),
             (f" at {_thousands(f.planned_turns)} turns", "#8a94a6"))
+        if f.final is not None and f.final.calibrated:
+            lines.append_text(Text.assemble(
+                ("  expect ", "#8a94a6"), (format_si(f.final.ohm, "ohm"), "bold #ffaf5f"),
+                (" there", "#8a94a6")))
         if f.readings:
             r = f.readings[-1]
             lines.append_text(Text.assemble(
-                ("   last reading ", "#8a94a6"), (format_si(r.ohm, "ohm"), "bold #ffaf5f"),
+                ("\nlast reading ", "#8a94a6"), (format_si(r.ohm, "ohm"), "bold #ffaf5f"),
                 (f" at {_thousands(r.turns)} t, {r.temp_c:.1f} °C", "#8a94a6")))
         q("#ohm-text", Static).update(lines)
         q(ChartView).set_state(f.turns, f.readings, e)

@@ -66,6 +66,7 @@ class Figures:
     fill_level: str                 # "ok" | "warn" | "full"
     estimate: Estimate
     readings: list[Reading] = field(default_factory=list)
+    final: Estimate | None = None   # resistance expected at the stop point
 
 
 def alpha_of(plan: Any) -> float:
@@ -188,13 +189,14 @@ def figures(plan: Any, turns: float, rpm: float = 0.0, *, schedule: Any | None =
     usable = float(plan.bobbin.usable_height_m)
     fill = build / usable if usable > 0 else math.inf
     est = estimate(turns) if estimate is not None else estimate_at(plan, turns, readings)
+    final = estimate(planned) if estimate is not None else estimate_at(plan, planned, readings)
     return Figures(
         turns=turns, planned_turns=planned,
         fraction=turns / planned if planned > 0 else 0.0,
         rpm=rpm, remaining_s=remaining_seconds(turns, planned, rpm, schedule),
         pass_index=pass_index, pass_count=count, direction=direction, guide_mm=guide,
         build_m=build, fill=fill, fill_level=fill_level(fill), estimate=est,
-        readings=list(readings),
+        readings=list(readings), final=final,
     )
 
 
