@@ -20,7 +20,7 @@ from winder.bench.measure import run_child_json
 
 MONITOR_PCT = 15.0      # issue budget: under 15 % of one core at 50 Hz input
 MEMORY_RATIO = 1.25     # ours
-LONG_S, IDLE_S = 8.0, 2.0
+LONG_S, IDLE_S = 6.0, 2.0
 LONG_TURNS = 20_000
 
 
@@ -33,7 +33,7 @@ def monitor_row(quick: bool) -> Row:
     gone = _gone()
     if gone:
         return Row("monitor", "", gone, verdict="n/a")
-    secs = 0.6 if quick else 6.0
+    secs = 0.6 if quick else 5.0
     r = run_child_json(["-m", "winder.bench.monitor_child", "--hz", "50", "--seconds",
                         str(secs), "--warmup", "0.3" if quick else "1.5", "--attribute"])
     pct = 100 * r["cpu_s"] / r["wall_s"]
