@@ -162,3 +162,11 @@ def test_turns_resistance_round_trip(kind, awg, turns, temp):
     m = make_model(ROUND, make_wire(f"{awg} AWG"), Style(kind))
     ohm = float(m.resistance_ohm(turns, temp))
     assert m.turns_for_resistance(ohm, temp) == pytest.approx(turns, rel=1e-9)
+
+
+def test_absurd_turn_counts_are_refused_not_allocated():
+    m = make_model(ROUND, wire_with_od(0.25e-3), Style("layer"))
+    with pytest.raises(InputError):
+        m.wire_length_m(1e9)
+    with pytest.raises(InputError):
+        m.turns_for_resistance(1e12)

@@ -172,6 +172,12 @@ def make_plan(coil: Coil, *, temp_c: float = 20.0, force: bool = False) -> Plan:
     model = make_model(coil.bobbin, coil.wire, coil.style)
     turns, warnings = _solve_turns(coil, model)
     b, w = coil.bobbin, coil.wire
+    if turns > model.capacity_turns and not force:
+        raise InputError(f"over-full: {turns} turns of {w.name} do not fit; at most "
+                         f"{model.capacity_turns} fit in the usable "
+                         f"{b.usable_width_m * 1e3:.3f} x {b.usable_height_m * 1e3:.3f} mm "
+                         f"({coil.style.kind} winding); use a thinner wire, a lower target, "
+                         "or --force", where=coil.source, key="target")
     build = float(model.build_height_m(turns))
     fill = build / b.usable_height_m
     length = float(model.wire_length_m(turns))
@@ -179,13 +185,10 @@ def make_plan(coil: Coil, *, temp_c: float = 20.0, force: bool = False) -> Plan:
     lo_pm, hi_pm = w.ohm_per_m_band(20.0)
     band = (length * lo_pm, length * hi_pm)
     if turns > model.capacity_turns:
-        msg = (f"over-full: {turns} turns need a build of {build * 1e3:.3f} mm but the usable "
-               f"height is {b.usable_height_m * 1e3:.3f} mm (at most {model.capacity_turns} "
-               f"turns of {w.name} fit, {coil.style.kind} winding)")
-        if not force:
-            raise InputError(msg + "; use a thinner wire, a lower target, or --force",
-                             where=coil.source, key="target")
-        warnings.insert(0, msg)
+        warnings.insert(0, f"over-full: {turns} turns need a build of {build * 1e3:.3f} mm but "
+                        f"the usable height is {b.usable_height_m * 1e3:.3f} mm (at most "
+                        f"{model.capacity_turns} turns of {w.name} fit, {coil.style.kind} "
+                        "winding)")
     elif fill >= NEAR_FULL:
         warnings.append(f"near full: the build uses {fill * 100:.1f} % of the usable height; "
                         "allow for tension, enamel variation and the outer wrap")

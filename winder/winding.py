@@ -35,6 +35,7 @@ from winder.wire import Wire
 KINDS = ("layer", "orthocyclic", "scatter")
 DEFAULT_SCATTER_PACKING = 0.70  # common practice, no source
 ORTHOCYCLIC_LIMIT = math.pi / (2 * math.sqrt(3))
+MAX_LAYERS = 1_000_000  # layers modelled at most (a guard against absurd targets)
 _EPS = 1e-9  # relative guard against floating error in floor(width / od)
 
 
@@ -184,7 +185,12 @@ class LayeredModel(_Base):
         if not math.isfinite(top):
             raise ValueError("turn count must be finite")
         if top > self._cum_turns[-1]:
-            self._grow(int(top / max(self.turns_per_layer - 1, 1)) + 2)
+            need = int(top / max(self.turns_per_layer - 1, 1)) + 2
+            if need > MAX_LAYERS:
+                raise InputError(f"{top:.0f} turns would need about {need} layers of "
+                                 f"{self.wire.name}; at most {MAX_LAYERS} are modelled",
+                                 key="target")
+            self._grow(need)
 
     def layers_for(self, turns) -> np.ndarray:
         """Layers started (int array) after ``turns`` turns."""
@@ -209,6 +215,9 @@ class LayeredModel(_Base):
     def turns_for_length(self, length_m: float) -> float:
         """Turns (float) whose wire length is ``length_m``."""
         while self._cum_len[-1] < length_m:
+            if 2 * self._n > MAX_LAYERS:
+                raise InputError(f"{length_m:.4g} m of {self.wire.name} would need more than "
+                                 f"{MAX_LAYERS} layers", key="target")
             self._grow(2 * self._n)
         k = int(np.searchsorted(self._cum_len, length_m, side="right") - 1)
         k = min(max(k, 0), self._n - 1)
