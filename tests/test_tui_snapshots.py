@@ -11,6 +11,8 @@ from __future__ import annotations
 
 import time
 
+from textual.widgets import Input
+
 from tests.tui_standins import StandInControl, pickup_coil, planned
 from winder.tui.app import WinderApp
 from winder.tui.plan_view import Planner
@@ -58,6 +60,8 @@ def test_reading_dialog_snapshot(snap_compare):
         app.screen.tick()
         await pilot.press("r")
         await pilot.pause()
+        for box in app.screen.query(Input):
+            box.cursor_blink = False                 # a blinking cursor is not deterministic
         app.screen.query_one("#reading-ohm").value = "5.92 parsec"
         app.screen.submit()
         await pilot.pause()
