@@ -63,7 +63,8 @@ def test_wires_json(run_cli):
 def test_gauges(run_cli):
     r = run_cli("gauges", "--bobbin", BLADE, "--resistance", "8 ohm", "--drive", "2 V", "--json")
     assert r.returncode == 0, r.stderr
-    opts = json.loads(r.stdout)["options"]
+    opts = json.loads(r.stdout)
+    assert isinstance(opts, list) and opts[0]["drive_v"] == 2.0
     for o in opts:
         assert {"wire", "turns", "fill", "full_resistance_ohm", "ampere_turns",
                 "recommended"} <= set(o)

@@ -328,9 +328,9 @@ def cmd_gauges(args: argparse.Namespace) -> int:
     if not options:
         raise InputError("no size of this series can be wound on the bobbin", where=args.bobbin)
     if args.json:
-        _emit_json({"bobbin": bobbin.name, "resistance_ohm": ohm, "drive_v": volts,
-                    "mode": "max-turns" if args.max_turns else "resistance",
-                    "style": style.kind, "options": [o.to_dict() for o in options]})
+        mode = "max-turns" if args.max_turns else "resistance"
+        _emit_json([{**o.to_dict(), "bobbin": bobbin.name, "target_ohm": ohm, "drive_v": volts,
+                     "mode": mode, "style": style.kind} for o in options])
         return 0
     best = next((i for i, o in enumerate(options) if o.recommended), None)
     shown = range(len(options))
