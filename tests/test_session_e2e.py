@@ -133,6 +133,7 @@ def test_sigkill_mid_wind_then_resume_finishes_with_the_exact_count(tmp_path, co
         host = winder(tmp_path, "wind", path, "--port", sim.device, "--headless",
                       "--session", sdir)
         wait_turns(sdir, plan.turns * 0.3)
+        assert report(tmp_path, sdir)["state"] == "running"     # a live host holds the lock
         host.kill()                              # SIGKILL: no chance to journal anything
         host.communicate(timeout=10)
         at_kill = journal_turns(sdir)
