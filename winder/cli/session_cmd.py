@@ -23,7 +23,8 @@ KEYS_HELP = ("keys (type + Enter): p pause, c continue, r OHM [TEMP] reading (e.
 
 def _add_wind_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--headless", action="store_true",
-                   help="no terminal UI: progress lines on stdout, keys on stdin")
+                   help="no terminal UI: progress lines on stdout, keys on stdin "
+                        "(without it: the plan view and the winding monitor)")
     p.add_argument("--stop-at-resistance", action="store_true",
                    help="measure as the coil grows and move the stop point to reach the "
                         "target resistance (needs a device that measures resistance)")
@@ -167,10 +168,15 @@ def _open_link(port: str, events):
     return link
 
 
-def _need_headless(args: argparse.Namespace) -> None:
-    if not args.headless:
-        raise InputError("the terminal monitor for winding is not available in this build; "
-                         "add --headless", where="--headless")
+def _tui():
+    """The terminal UI's entry points (``run_wind``, ``run_resume``), or None."""
+    import importlib.util
+
+    if importlib.util.find_spec("winder.tui.wind") is None:
+        return None
+    from winder.tui import wind
+
+    return wind
 
 
 def cmd_wind(args: argparse.Namespace) -> int:
@@ -180,7 +186,15 @@ def cmd_wind(args: argparse.Namespace) -> int:
     from winder.session.runner import Runner
     from winder.session.session import Session
 
-    _need_headless(args)
+    if not args.headless:
+        tui = _tui()
+        if tui is None:
+            raise InputError("the terminal monitor is not available; add --headless",
+                             where="--headless")
+        return tui.run_wind(args.coil, port=args.port, machine_file=args.machine,
+                            session_dir=args.session,
+                            stop_at_resistance=args.stop_at_resistance,
+                            auto_continue=args.auto_continue)
     events: queue.Queue = queue.Queue(maxsize=10000)
     link = _open_link(args.port, events)
     sess = None
@@ -219,12 +233,20 @@ def cmd_resume(args: argparse.Namespace) -> int:
     from winder.session.session import Session
     from winder.units import parse_resistance, parse_temperature
 
-    _need_headless(args)
     reading = None
     if args.reading:
         ohm = parse_resistance(args.reading, where="--reading")
         temp = parse_temperature(args.temp, where="--temp") if args.temp else None
         reading = Reading(0.0, ohm, temp, "at resume")
+    if not args.headless:
+        tui = _tui()
+        if tui is None:
+            raise InputError("the terminal monitor is not available; add --headless",
+                             where="--headless")
+        return tui.run_resume(args.session, port=args.port, reading=reading,
+                              accept_correction=args.accept_correction,
+                              stop_at_resistance=args.stop_at_resistance,
+                              auto_continue=args.auto_continue)
     sess = Session.open(args.session, writable=True)
     link = None
     try:
