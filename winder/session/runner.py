@@ -642,6 +642,12 @@ class Runner:
         if self.done:
             return
         turns = float(ev.turns)
+        if not ev.rebooted:
+            # the device may have wound on while the host was deaf (until its watchdog
+            # tripped): plan from its own count, not the last one the host heard
+            fresh = self._fresh_status(float(getattr(ev, "t", 0.0) or 0.0))
+            if fresh is not None:
+                turns = float(fresh.turns)
         st = self.session.state
         was_running = st.state == "running" and not self.waiting
         self._record("link_back", turns=turns, rebooted=bool(ev.rebooted),
@@ -671,6 +677,18 @@ class Runner:
             self._record("paused", turns=self.turns, reason="link")
             self.waiting = True
             self._emit("paused", "motor stopped; continue when ready")
+
+    def _fresh_status(self, since: float, timeout: float = 2.0) -> Any | None:
+        """The first device status sent at or after ``since`` (link clock, s), or None."""
+        wait_for = getattr(self.link, "wait_for", None)
+        if wait_for is None:
+            return None
+        try:
+            st = wait_for(lambda s: getattr(s, "t", since) >= since, timeout)
+        except WinderError:
+            return None
+        self.status = st
+        return st
 
     def _finish(self, reason: str, turns: float) -> None:
         if self.done:
