@@ -29,20 +29,21 @@ def test_halves_round_away_from_zero_both_ways():
 
 
 def test_no_drift_over_twenty_thousand_turns():
-    # 20,000 turns fed as 0.37-turn moves (awkward fraction) at 3200 and 1600*7/3 steps/turn.
-    for spr in (3200, 1600 * 7 / 3, 200):
+    # 20,000 turns fed as 0.3703-turn moves (an awkward fraction; 54,010 moves) at 3200
+    # steps/turn, and as 1.37-turn moves at 1600 x 7/3 steps/turn (not a whole number).
+    for step, spr in ((0.3703, 3200), (1.37, 1600 * 7 / 3)):
         acc = StepAccumulator(spr)
+        per_move = Fraction(step) * Fraction(spr)
         moved = 0
-        exact = Fraction(0)
-        worst = 0.0
-        step = 0.37
         n = int(20000 / step)
-        for _ in range(n):
+        for k in range(1, n + 1):
             moved += acc.move_by(step)
-            exact += Fraction(step) * Fraction(spr)
-            worst = max(worst, abs(moved - float(exact)))
-        assert worst <= 0.5 + 1e-9
+            if k % 997 == 0 or k == n:
+                assert abs(moved - k * per_move) <= Fraction(1, 2)
         assert abs(moved - n * step * spr) <= 1.0
+        # Rounding each move on its own drifts by whole turns' worth of steps.
+        naive = n * round(step * spr)
+        assert abs(naive - n * step * spr) > 100
 
 
 @settings(max_examples=60, deadline=None)
