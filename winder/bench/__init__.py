@@ -28,8 +28,9 @@ Rows (key: what is measured)
 ``monitor``    CPU time / wall time of a headless monitor under a 50 Hz count stream
 ``startup``    ``winder plan COIL --json`` / ``python -c 'import numpy, pint'`` (and
                / ``python -c pass``), alternating runs
-``memory``     peak RSS (``ru_maxrss``) of a child monitoring a long wind, / the
-               peak of the same child monitoring an idle wind
+``memory``     peak RSS of a child running ``winder demo``'s whole stack (simulator,
+               link, runner, journal, monitor) through the 8,613-turn coil, / its
+               own peak when the wind began
 
 Public API: :class:`Row`, :data:`ROWS`, :func:`run` (``quick``: tiny sizes for
 the smoke test), :func:`format_table`, :func:`machine_line`.
