@@ -219,3 +219,37 @@ def test_stop_at_resistance_needs_a_resistance_target(tmp_path):
 ])
 def test_reading_key_parsing(text, expect):
     assert split_reading(text) == expect
+
+
+def test_stop_at_resistance_needs_a_measuring_device():
+    from winder.errors import InputError
+    from winder.session.runner import check_stop_at_resistance
+
+    check_stop_at_resistance(True, 500.0, CAPS)
+    check_stop_at_resistance(False, None, frozenset({"count"}))
+    with pytest.raises(InputError, match="measures resistance"):
+        check_stop_at_resistance(True, 500.0, frozenset({"count", "pedal"}))
+    with pytest.raises(InputError, match="target is a resistance"):
+        check_stop_at_resistance(True, None, CAPS)
+
+
+def test_resume_says_where_the_schedule_continues(tmp_path, prep):
+    r, link, sess, updates = new_runner(tmp_path, prep)
+    r.start()
+    feed(r, status(90))
+    r.halt("quit")
+    sess.close()
+    again = Session.open(tmp_path / "s", writable=True, fsync=False)
+    link2 = StandInLink()
+    link2.turns = 90.0
+    r2 = Runner(again, link2, schedule=prep.schedule, machine=prep.machine,
+                on_update=updates.append)
+    rec = r2.resume()
+    assert rec.same_boot and rec.turns == 90.0 and rec.unaccounted_turns == 0
+    i, pos = prep.schedule.pass_at(90.0)
+    msg = [u for u in updates if u.text.startswith("continuing from 90 turns")]
+    assert msg and msg[-1].data["pass_index"] == i and msg[-1].data["guide_mm"] == pos
+    first = next(c for c in link2.calls if c[0] == "queue_pass")
+    assert first[1] == pytest.approx(pos + prep.machine.traverse.start_flange_m * 1e3)
+    assert again.state.state == "running" and again.state.host_runs == 2
+    again.close()

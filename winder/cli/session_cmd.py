@@ -183,7 +183,7 @@ def cmd_wind(args: argparse.Namespace) -> int:
     import queue
 
     from winder.session.prepare import machine_for, prepare, started_fields
-    from winder.session.runner import Runner
+    from winder.session.runner import Runner, check_stop_at_resistance
     from winder.session.session import Session
 
     if not args.headless:
@@ -202,6 +202,10 @@ def cmd_wind(args: argparse.Namespace) -> int:
         info = link.info
         machine = machine_for(args.machine, info.capabilities, info.counts_per_rev)
         prep = prepare(args.coil, machine)
+        tgt = prep.plan.coil.target
+        check_stop_at_resistance(args.stop_at_resistance,
+                                 tgt.value if tgt.kind == "resistance" else None,
+                                 frozenset(info.capabilities))
         sess = Session.create(coil_name=prep.coil.name, coil_yaml=prep.coil_yaml,
                               plan=prep.plan.to_dict(), schedule=prep.schedule.to_dict(),
                               started=started_fields(prep, info.to_dict()),

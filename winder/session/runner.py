@@ -157,9 +157,7 @@ class Runner:
         self._finishing = False
         self._fresh_after = 0.0
         st = session.state
-        if stop_at_resistance and st.target_ohm is None:
-            raise InputError("--stop-at-resistance needs a coil whose target is a resistance",
-                             where="--stop-at-resistance")
+        check_stop_at_resistance(stop_at_resistance, st.target_ohm, self.caps)
 
     # ---- capabilities -----------------------------------------------------------------
     @property
@@ -283,6 +281,11 @@ class Runner:
                     turns = self.turns
         self.policy.mark(self.turns, self.clock())
         self._record("continued", turns=self.turns)
+        if self.schedule is not None and getattr(self.schedule, "passes", None):
+            i, pos = self.schedule.pass_at(min(self.turns, self.schedule.total_turns))
+            self._emit("info", f"continuing from {self.turns:g} turns: pass {i + 1} of "
+                       f"{len(self.schedule.passes)}, guide at {pos:.2f} mm from the start "
+                       "flange", pass_index=i, guide_mm=pos)
         self._begin_run()
         return Reconciliation(journal_turns, device_turns, same, turns, unacc, sugg, pm)
 
@@ -857,6 +860,20 @@ class Runner:
             self.session.write_summary()
             self.done = True
             self._emit("stopped", f"stopped at {self.turns:g} turns ({reason})")
+
+
+def check_stop_at_resistance(wanted: bool, target_ohm: float | None,
+                             caps: frozenset[str]) -> None:
+    """Refuse ``--stop-at-resistance`` without a resistance target or a measuring device."""
+    if not wanted:
+        return
+    if target_ohm is None:
+        raise InputError("--stop-at-resistance needs a coil whose target is a resistance",
+                         where="--stop-at-resistance")
+    if caps and "ohm" not in caps:
+        raise InputError("--stop-at-resistance needs a device that measures resistance "
+                         f"(this one offers {', '.join(sorted(caps))})",
+                         where="--stop-at-resistance")
 
 
 def _with_queued(st: Any, queued: int) -> Any:
