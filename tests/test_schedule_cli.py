@@ -97,3 +97,15 @@ def test_errors_exit_2(tmp_path, capsys):
     assert "no such machine profile" in capsys.readouterr().err
     assert main(["schedule", coil, "-o", str(tmp_path / "no" / "dir" / "x.txt")]) == 2
     assert "-o" in capsys.readouterr().err
+
+
+def test_traverse_limit_warns_on_stderr(capsys):
+    # 0.2526 mm pitch x 2000 rpm = 8.42 mm/s over the machine's 8 mm/s: 1900 rpm
+    # (8 mm/s / 0.2526 mm x 60 = 1900.2 rpm).
+    coil = str(ROOT / "profiles" / "coils" / "driver-8ohm.yaml")
+    machine = str(ROOT / "profiles" / "machines" / "fine-wire-traverse.yaml")
+    assert main(["schedule", coil, "--machine", machine, "--format", "json"]) == 0
+    out = capsys.readouterr()
+    assert "traverse speed limit 8 mm/s" in out.err and "1900 rpm" in out.err
+    data = json.loads(out.out)
+    assert all(p["rpm"] * p["pitch_mm"] / 60 <= 8 + 1e-9 for p in data["passes"])
