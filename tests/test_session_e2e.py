@@ -141,10 +141,14 @@ def test_sigkill_mid_wind_then_resume_finishes_with_the_exact_count(tmp_path, co
         assert t["count"] >= at_kill and "watchdog" in t["faults"]
         rep = report(tmp_path, sdir)
         assert rep["state"] == "interrupted"
+        with open(sdir / "journal.jsonl", "ab") as fh:   # as if killed in mid-write
+            fh.write(b'{"seq":9999,"t":1.0,"kind":"checkpoint","tur')
         rc, out, err = finish(winder(tmp_path, "resume", sdir, "--headless",
                                      stdin=subprocess.DEVNULL))
         assert rc == 0, err + out
         truth = sim.truth()
+    assert "torn fragment" in out                 # reported, kept, acknowledged
+    assert b'"kind":"checkpoint","tur\n' in (sdir / "journal.jsonl").read_bytes()
     assert "same device boot: adopted its count" in out
     rep = report(tmp_path, sdir)
     assert rep["state"] == "finished"
