@@ -253,3 +253,13 @@ def test_resume_says_where_the_schedule_continues(tmp_path, prep):
     assert first[1] == pytest.approx(pos + prep.machine.traverse.start_flange_m * 1e3)
     assert again.state.state == "running" and again.state.host_runs == 2
     again.close()
+
+
+def test_device_readings_carry_the_ambient_temperature(tmp_path, prep):
+    r, link, sess, updates = new_runner(tmp_path, prep, ambient_c=25.0)
+    r.start()
+    feed(r, status(60), DeviceEvent("reading", {"ohm": 3.0, "c": 60}, time.monotonic()))
+    got = sess.state.readings[-1]
+    assert got["temp_c"] == 25.0 and got["source"] == "device" and got["turns"] == 60.0
+    # 3.0 ohm at 25 C is 3.0 / (1 + 0.00393 * 5) ohm at 20 C (IEC 60287-1-1 alpha)
+    assert sess.state.reading_objects[-1].ohm_20c == pytest.approx(3.0 / 1.01965)

@@ -31,6 +31,9 @@ def _add_wind_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--auto-continue", action="store_true",
                    help="carry on by itself after a link loss or device restart "
                         "(unattended runs; by default winder waits for 'c')")
+    p.add_argument("--ambient", metavar="TEMP",
+                   help="room temperature for the device's own resistance readings "
+                        "(e.g. '24 C'; default 20 C)")
     p.add_argument("--quiet", action="store_true", help="fewer progress lines")
 
 
@@ -195,6 +198,7 @@ def cmd_wind(args: argparse.Namespace) -> int:
                             session_dir=args.session,
                             stop_at_resistance=args.stop_at_resistance,
                             auto_continue=args.auto_continue)
+    ambient = _ambient(args)
     events: queue.Queue = queue.Queue(maxsize=10000)
     link = _open_link(args.port, events)
     sess = None
@@ -213,7 +217,7 @@ def cmd_wind(args: argparse.Namespace) -> int:
         runner = Runner(sess, link, schedule=prep.schedule, machine=machine,
                         stop_at_resistance=args.stop_at_resistance,
                         auto_continue=args.auto_continue, events=events,
-                        on_update=_printer(args.quiet))
+                        ambient_c=ambient, on_update=_printer(args.quiet))
         print(f"session {sess.id}  ({sess.path})", flush=True)
         print(f"coil {prep.coil.name}: {prep.plan.turns} turns planned, "
               f"{_fmt_ohm(prep.plan.resistance_ohm)} at 20 C, "
@@ -242,6 +246,7 @@ def cmd_resume(args: argparse.Namespace) -> int:
         ohm = parse_resistance(args.reading, where="--reading")
         temp = parse_temperature(args.temp, where="--temp") if args.temp else None
         reading = Reading(0.0, ohm, temp, "at resume")
+    ambient = _ambient(args)
     if not args.headless:
         tui = _tui()
         if tui is None:
@@ -274,7 +279,7 @@ def cmd_resume(args: argparse.Namespace) -> int:
         runner = Runner(sess, link, schedule=schedule, machine=machine,
                         stop_at_resistance=args.stop_at_resistance,
                         auto_continue=args.auto_continue, events=events,
-                        on_update=_printer(args.quiet))
+                        ambient_c=ambient, on_update=_printer(args.quiet))
         print(f"resuming {sess.id} at {st.turns:g} of {st.stop_turns:g} turns "
               f"(journal state {sess.effective_state()})", flush=True)
         if sess.torn is not None:
@@ -299,6 +304,14 @@ def cmd_resume(args: argparse.Namespace) -> int:
         if link is not None:
             link.close()
         sess.close()
+
+
+def _ambient(args: argparse.Namespace) -> float | None:
+    if not args.ambient:
+        return None
+    from winder.units import parse_temperature
+
+    return parse_temperature(args.ambient, where="--ambient")
 
 
 def _fmt_ohm(x: float) -> str:

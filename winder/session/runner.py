@@ -124,6 +124,7 @@ class Runner:
                  machine: Any | None = None, stop_at_resistance: bool = False,
                  auto_continue: bool = False, policy: CheckpointPolicy | None = None,
                  on_update: Callable[[Update], None] | None = None,
+                 ambient_c: float | None = None,
                  summary_every_s: float = 5.0, measure_fractions: tuple[float, ...] = (
                      0.25, 0.5, 0.75),
                  clock: Callable[[], float] = time.time, events: queue.Queue | None = None):
@@ -136,6 +137,7 @@ class Runner:
         self.policy = policy or CheckpointPolicy()
         self.on_update = on_update
         self.summary_every_s = summary_every_s
+        self.ambient_c = ambient_c      # degC given to device readings (None = 20 C)
         self.measure_fractions = measure_fractions
         self.clock = clock
         self.events: queue.Queue = events if events is not None else queue.Queue(maxsize=10000)
@@ -567,7 +569,7 @@ class Runner:
             if not early:   # (an answer to an earlier request is just a reading)
                 self._want_reading = None
             final = why == "final" and not early
-            self._add_reading(Reading(turns, float(ev.data["ohm"]), None,
+            self._add_reading(Reading(turns, float(ev.data["ohm"]), self.ambient_c,
                                       "final" if final else ""), source="device")
             if final:
                 self._finish("stop point reached", self.turns)
