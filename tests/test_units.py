@@ -16,7 +16,7 @@ from winder.units import format_si, parse, parse_temperature
     ("text", "kind", "expected"),
     [
         ("0.063 mm", "length", 63e-6),
-        # the trade's mil is a thousandth of an inch: 2.5 x 25.4 um (exact by definition of the inch)
+        # the trade's mil is a thousandth of an inch: 2.5 x 25.4 um (the inch is exactly 25.4 mm)
         ("2.5 mil", "length", 2.5 * 25.4e-6),
         ("2.5 mils", "length", 2.5 * 25.4e-6),
         ("0.0025 in", "length", 63.5e-6),
