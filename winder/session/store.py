@@ -179,8 +179,10 @@ class SessionLock:
         self._fd: int | None = None
 
     def acquire(self) -> None:
-        import fcntl
-
+        try:
+            import fcntl
+        except ImportError:  # not POSIX: no advisory lock (a report cannot tell running
+            return           # from interrupted there)
         fd = os.open(self.path, os.O_RDWR | os.O_CREAT, 0o644)
         try:
             fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
@@ -199,8 +201,10 @@ class SessionLock:
 
     @staticmethod
     def held_elsewhere(session_dir: Path) -> bool:
-        import fcntl
-
+        try:
+            import fcntl
+        except ImportError:
+            return False
         path = Path(session_dir) / LOCK_FILE
         try:
             fd = os.open(path, os.O_RDONLY)
