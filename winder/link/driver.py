@@ -331,10 +331,16 @@ class WinderLink:
         next_hi = t0 + 0.05
         self._seq = self._seq % 65535 + 1
         hi_seq = self._seq
+        garbled = 0
         while True:
             now = time.monotonic()
             if now >= deadline:
-                break
+                # a device that talks through a noisy line (lines arrive, but damaged)
+                # gets up to three times the timeout before the handshake gives up
+                if (garbled or protocol_seen) and now < t0 + 3 * self.hello_timeout:
+                    deadline = min(now + self.hello_timeout, t0 + 3 * self.hello_timeout)
+                else:
+                    break
             if plain >= 3 and not protocol_seen and now - t0 > 0.6:
                 break
             if now >= next_hi:
@@ -351,6 +357,7 @@ class WinderLink:
                 try:
                     msg = parse_device_line(line, allow_plain=True)
                 except FrameError:
+                    garbled += 1
                     continue
                 if isinstance(msg, PlainCount):
                     plain += 1
