@@ -113,6 +113,18 @@ def plan_faults(rng: random.Random) -> tuple[list[tuple[float, str, float]], boo
     return out, corrupt_all
 
 
+def ohm_per_turn() -> float:
+    """The campaign coil's planned mean ohm per turn (so the simulator's readings agree)."""
+    import yaml
+
+    from winder.planner import make_plan
+    from winder.profile import coil_from_mapping
+
+    coil = coil_from_mapping(yaml.safe_load(COIL_YAML), "campaign coil", Path("coil.yaml"))
+    plan = make_plan(coil)
+    return plan.resistance_ohm / plan.turns
+
+
 class _Run:
     """The machinery of one run: a simulator, host processes, their stderr files."""
 
@@ -130,6 +142,7 @@ class _Run:
         self.env["WINDER_DATA_DIR"] = str(work / "data")
         self.hosts: list[tuple[subprocess.Popen, Path, str]] = []
         self.sim: SimProcess | None = None
+        self.t0 = time.monotonic()
         self.host: subprocess.Popen | None = None
 
     # ---- processes ------------------------------------------------------------------
@@ -179,12 +192,18 @@ class _Run:
         self.res.problems.append(f"timed out waiting for {what}")
         return None
 
-    def wait_running_again(self, since: float, count0: float, timeout: float = 30.0) -> None:
-        """Recovery: from the fault until the motor runs and the count moved on."""
-        t = self.wait(lambda t: t["motor_running"] and t["linked"] and t["count"] > count0,
+    def wait_running_again(self, since: float, timeout: float = 30.0,
+                           stop_first: bool = True) -> None:
+        """Recovery: from the fault until the motor, once stopped, runs and counts again."""
+        c0 = -1
+        if stop_first:
+            stopped = self.wait(lambda t: not t["motor_running"], 5.0, "the motor to stop")
+            c0 = stopped["count"] if stopped is not None else -1
+        t = self.wait(lambda t: t["motor_running"] and t["linked"] and t["count"] > c0,
                       timeout, "the winding to go on")
         if t is not None:
             self.res.recoveries_s.append(time.monotonic() - since)
+            self.note(f"recovered after {time.monotonic() - since:.2f} s at count {t['count']}")
 
     def wait_stopped(self, timeout: float = 5.0) -> dict[str, Any] | None:
         deadline = time.monotonic() + timeout
@@ -205,19 +224,25 @@ class _Run:
         self.ctl(f"speedup {self.speedup:g}")
 
     # ---- faults ---------------------------------------------------------------------
+    def note(self, text: str) -> None:
+        """One line of the run log (``campaign.log`` in the run directory)."""
+        with open(self.work / "campaign.log", "a") as f:
+            f.write(f"{time.monotonic() - self.t0:8.3f} {text}\n")
+
     def inject(self, kind: str, param: float) -> None:
         self.res.faults[kind] += 1
+        t = self.truth()
+        self.note(f"inject {kind} {param:.2f}: count {t['count']} coil {t['coil_turns']:.2f} "
+                  f"rpm {t['rpm']:.0f} state {t['state']}")
         t0 = time.monotonic()
         if kind == "drop":
-            c0 = self.truth()["count"]
             self.ctl(f"drop {param:.2f}")
-            self.wait_running_again(t0, c0)
+            self.wait_running_again(t0)
         elif kind == "reboot":
             self.real_time()
             t0 = time.monotonic()
-            c0 = 0
             self.ctl("reboot")
-            self.wait_running_again(t0, c0)
+            self.wait_running_again(t0)
             self.accelerate()
         elif kind == "reboot_in_drop":
             self.real_time()
@@ -225,7 +250,7 @@ class _Run:
             self.ctl(f"drop {param:.2f}")
             time.sleep(param * self.rng.uniform(0.3, 0.7))
             self.ctl("reboot")
-            self.wait_running_again(t0, 0)
+            self.wait_running_again(t0)
             self.accelerate()
         elif kind == "corrupt":
             self.ctl("corrupt 0.01")
@@ -237,8 +262,7 @@ class _Run:
                 time.sleep(self.rng.uniform(0.02, 0.25))
                 self._keys("c\n")
                 time.sleep(self.rng.uniform(0.02, 0.25))
-            c0 = self.truth()["count"]
-            self.wait_running_again(t0, c0)
+            self.wait_running_again(t0, stop_first=False)
         elif kind in ("kill", "kill_reboot"):
             if kind == "kill_reboot":
                 self.real_time()
@@ -257,22 +281,22 @@ class _Run:
                     if trip > WATCHDOG_S + WATCHDOG_SLACK_S:
                         self.res.problems.append(f"watchdog tripped after {trip:.3f} s of "
                                                  "host silence")
-            c0 = self.truth()["count"]
             if kind == "kill_reboot":
                 self.ctl("reboot")
                 time.sleep(0.6)
                 self.accelerate()
-                c0 = 0
             self._spawn("resume", str(self.sdir), "--headless", "--auto-continue",
                         label="resume")
-            self.wait_running_again(t0, c0)
+            self.wait_running_again(t0)
 
     # ---- the run --------------------------------------------------------------------
     def execute(self) -> RunResult:
-        start = time.monotonic()
+        start = self.t0 = time.monotonic()
         faults, corrupt_all = plan_faults(self.rng)
-        self.sim = start_sim(speedup=self.speedup, extra=["--seed", str(self.seed),
-                                                          "--watchdog", str(WATCHDOG_S)])
+        self.note(f"faults {faults} corrupt_all {corrupt_all}")
+        self.sim = start_sim(speedup=self.speedup, extra=[
+            "--seed", str(self.seed), "--watchdog", str(WATCHDOG_S),
+            "--ohm-per-turn", f"{ohm_per_turn():.9g}"])
         try:
             self._spawn("wind", str(self.coil), "--port", self.sim.device, "--headless",
                         "--session", str(self.sdir), "--auto-continue", label="wind")
@@ -313,6 +337,7 @@ class _Run:
             return
         self.ctl("corrupt 0")
         truth = self.truth()
+        self.note(f"end: host rc {rc}; truth {json.dumps(truth)}")
         for proc, err_path, label in self.hosts:
             err = err_path.read_text(errors="replace")
             if "Traceback" in err or "Exception" in err:
