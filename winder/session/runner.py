@@ -359,6 +359,17 @@ class Runner:
         self._fresh_after = time.monotonic()
         if self.status is not None:
             self.status = _with_queued(self.status, 0)
+        # plan from where the spindle came to rest: a status sent after the stop with the
+        # spindle still (a link that came back before the watchdog tripped finds it turning);
+        # not before a resume, which reconciles the count itself (status None until then)
+        wait_for = getattr(self.link, "wait_for", None)
+        if wait_for is not None and self.status is not None:
+            since = self._fresh_after
+            try:
+                self.status = _with_queued(wait_for(
+                    lambda s: getattr(s, "t", since) >= since and not (s.rpm > 0), 4.0), 0)
+            except WinderError:
+                pass
 
     def _begin_run(self) -> None:
         if self.motor:
