@@ -23,6 +23,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from winder.errors import InputError
 from winder.session.calibration import Calibrator, Estimate, Reading, ResistanceCurve
 
 STATES = ("running", "paused", "finished", "aborted", "interrupted")
@@ -282,8 +283,14 @@ class SessionState:
 def rebuild(events: list[dict[str, Any]]) -> SessionState:
     """The state after all ``events`` (from :func:`winder.session.journal.replay`)."""
     st = SessionState()
-    for ev in events:
-        st.apply(ev)
+    for i, ev in enumerate(events):
+        try:
+            st.apply(ev)
+        except (TypeError, ValueError, KeyError, AttributeError) as err:
+            # valid JSON with a field of the wrong type or missing (bit rot, hand edits)
+            raise InputError(f"journal line {i + 1} ({str(ev.get('kind'))[:20]!r} event) has a "
+                             f"damaged field ({type(err).__name__}: {str(err)[:80]})",
+                             where="journal.jsonl") from None
     return st
 
 
