@@ -199,6 +199,7 @@ def cmd_wind(args: argparse.Namespace) -> int:
                             stop_at_resistance=args.stop_at_resistance,
                             auto_continue=args.auto_continue)
     ambient = _ambient(args)
+    _check_profiles(args.coil, args.machine)
     events: queue.Queue = queue.Queue(maxsize=10000)
     link = _open_link(args.port, events)
     sess = None
@@ -231,6 +232,17 @@ def cmd_wind(args: argparse.Namespace) -> int:
         link.close()
         if sess is not None:
             sess.close()
+
+
+def _check_profiles(coil: str, machine: str | None) -> None:
+    """Refuse a bad coil or machine profile before the port is opened (one-line errors)."""
+    from winder.profile import load_coil
+
+    load_coil(coil)
+    if machine:
+        from winder.schedule import load_machine
+
+        load_machine(machine)
 
 
 def cmd_resume(args: argparse.Namespace) -> int:
