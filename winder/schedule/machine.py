@@ -286,8 +286,16 @@ def load_machine(path: str | Path) -> Machine:
     """Load and validate a machine profile YAML file (``yaml.safe_load`` only)."""
     import yaml
 
+    from winder.profile import MAX_PROFILE_BYTES
+
     where = str(path)
     try:
+        size = Path(path).stat().st_size
+        if not Path(path).is_file():
+            raise InputError("not a machine profile file", where=where)
+        if size > MAX_PROFILE_BYTES:
+            raise InputError(f"{size} bytes is too large for a machine profile (at most "
+                             f"{MAX_PROFILE_BYTES})", where=where)
         text = Path(path).read_text(encoding="utf-8")
     except FileNotFoundError as err:
         raise InputError("no such machine profile", where=where) from err
