@@ -8,7 +8,14 @@ from __future__ import annotations
 
 from textual.widgets import Digits, Input, RichLog
 
-from tests.tui_standins import StandInControl, pickup_coil, planned, screen_text, type_text
+from tests.tui_standins import (
+    StandInControl,
+    pickup_coil,
+    planned,
+    screen_text,
+    settle,
+    type_text,
+)
 from winder.planner import Target
 from winder.tui.app import WinderApp
 from winder.tui.dialogs import CautionScreen, EntryDialog, ReadingDialog, check_reading
@@ -54,7 +61,7 @@ async def test_count_rises_on_screen():
         digits = app.screen.query_one("#count", Digits)
         assert digits.value == "0"
         control.advance(1234.6)
-        app.screen.tick()
+        settle(app.screen)
         await pilot.pause()
         assert digits.value == "1 234"
         text = screen_text(app)
@@ -88,7 +95,7 @@ async def test_reading_dialog_refuses_bad_input_then_logs():
     app, plan, _ = make_app(control, cautioned=True)
     async with app.run_test(size=SIZE) as pilot:
         control.advance(plan.turns / 2)
-        app.screen.tick()
+        settle(app.screen)
         monitor = app.screen
         await pilot.press("r")
         await pilot.pause()
@@ -114,7 +121,7 @@ async def test_reading_dialog_refuses_bad_input_then_logs():
         await pilot.pause()
         assert app.screen is monitor
         assert control.calls == [("reading", 2900.0, 23.0)]
-        monitor.tick()
+        settle(monitor)
         await pilot.pause()
         chart = monitor.query_one(ChartView)
         assert [(r.turns, r.ohm) for r in chart.readings] == [(plan.turns / 2, 2900.0)]
@@ -127,7 +134,7 @@ async def test_far_off_reading_asks_to_confirm():
     app, plan, _ = make_app(control, cautioned=True)
     async with app.run_test(size=SIZE) as pilot:
         control.advance(plan.turns / 2)
-        app.screen.tick()
+        settle(app.screen)
         await pilot.press("r")
         await pilot.pause()
         dialog = app.screen
@@ -161,14 +168,14 @@ async def test_pause_stop_break_note_and_quit():
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
         assert control.calls == [("start",)]
-        app.screen.tick()
+        settle(app.screen)
         await pilot.press("space")
-        app.screen.tick()
+        settle(app.screen)
         await pilot.pause()
         assert control.calls[-1] == ("pause",)
         assert "PAUSED" in screen_text(app)
         await pilot.press("space")
-        app.screen.tick()
+        settle(app.screen)
         await pilot.pause()
         assert control.calls[-1] == ("resume",)
         await pilot.press("b")
@@ -212,15 +219,15 @@ async def test_fill_warns_near_and_at_the_rim():
     warn_at = int(n[np.argmax(h >= 0.9 * usable)])
     async with app.run_test(size=SIZE) as pilot:
         control.advance(warn_at - 1)
-        app.screen.tick()
+        settle(app.screen)
         await pilot.pause()
         assert "NEAR THE RIM" not in screen_text(app)
         control.advance(warn_at)
-        app.screen.tick()
+        settle(app.screen)
         await pilot.pause()
         assert "NEAR THE RIM" in screen_text(app)
         control.advance(plan.turns * 1.2)
-        app.screen.tick()
+        settle(app.screen)
         await pilot.pause()
         assert "AT THE RIM" in screen_text(app)
 
@@ -231,13 +238,13 @@ async def test_link_state_and_events_are_shown():
     async with app.run_test(size=SIZE) as pilot:
         control.feed.status(link="reconnecting")
         control.feed.log("link lost: no data for 1.0 s", "link")
-        app.screen.tick()
+        settle(app.screen)
         await pilot.pause()
         text = screen_text(app)
         assert "reconnecting" in text
         assert "link lost: no data" in text
         control.feed.status(link="rebooted")
-        app.screen.tick()
+        settle(app.screen)
         await pilot.pause()
         assert "device rebooted" in screen_text(app)
         assert len(app.screen.query_one(RichLog).lines) >= 1
@@ -249,9 +256,9 @@ async def test_a_failing_action_is_logged_not_raised():
     async with app.run_test(size=SIZE) as pilot:
         control.fail_next = "link down: cannot pause"
         control.feed.status(state="running")
-        app.screen.tick()
+        settle(app.screen)
         await pilot.press("space")
-        app.screen.tick()
+        settle(app.screen)
         await pilot.pause()
         assert "cannot pause" in screen_text(app)
         assert isinstance(app.screen, MonitorScreen)

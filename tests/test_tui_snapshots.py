@@ -13,7 +13,7 @@ import time
 
 from textual.widgets import Input
 
-from tests.tui_standins import StandInControl, pickup_coil, planned
+from tests.tui_standins import StandInControl, pickup_coil, planned, settle
 from winder.tui.app import WinderApp
 from winder.tui.plan_view import Planner
 
@@ -46,18 +46,18 @@ def monitor_app() -> tuple[WinderApp, StandInControl]:
 def test_monitor_snapshot(snap_compare):
     app, _ = monitor_app()
 
-    async def settle(pilot):
-        app.screen.tick()
+    async def run_before(pilot):
+        settle(app.screen)
         await pilot.pause()
 
-    assert snap_compare(app, terminal_size=SIZE, run_before=settle)
+    assert snap_compare(app, terminal_size=SIZE, run_before=run_before)
 
 
 def test_reading_dialog_snapshot(snap_compare):
     app, _ = monitor_app()
 
     async def open_dialog(pilot):
-        app.screen.tick()
+        settle(app.screen)
         await pilot.press("r")
         await pilot.pause()
         for box in app.screen.query(Input):

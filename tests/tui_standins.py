@@ -103,3 +103,11 @@ async def type_text(pilot: Any, text: str) -> None:
     """Type ``text`` key by key."""
     keys = {" ": "space", ".": "full_stop", "-": "minus", "+": "plus", "%": "percent_sign"}
     await pilot.press(*[keys.get(ch, ch) for ch in text])
+
+
+def settle(screen: Any) -> None:
+    """Run the monitor's refresh timer long enough for its read-outs to catch up."""
+    from winder.tui.monitor_view import READOUT_EVERY
+
+    for _ in range(READOUT_EVERY + 1):
+        screen.tick()

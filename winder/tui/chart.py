@@ -16,6 +16,7 @@ from collections.abc import Sequence
 
 from rich.text import Text
 
+from winder.tui.cells import CellText
 from winder.units import format_si
 
 # Braille dot bits by (column, row) inside a cell; rows count down from the top.
@@ -78,10 +79,10 @@ class _Canvas:
         for i in range(steps + 1):
             self.dot(round(x0 + (x1 - x0) * i / steps), round(y0 + (y1 - y0) * i / steps), style)
 
-    def text(self) -> list[Text]:
+    def text(self) -> list[CellText]:
         lines = []
         for row in range(self.h):
-            t = Text(no_wrap=True, overflow="crop")
+            t = CellText()
             for col in range(self.w):
                 if (col, row) in self.mark:
                     ch, st = self.mark[(col, row)]
@@ -136,7 +137,7 @@ def resistance_chart(width: int, height: int, *, turns_max: float,
         col, row = min(plot_w - 1, px // 2), plot_h - 1 - min(plot_h - 1, py // 4)
         cv.mark[(col, row)] = ("●", STYLE_POINT)
 
-    out = Text(no_wrap=True, overflow="crop")
+    out = CellText()
     for row, line in enumerate(cv.text()):
         if row == 0:
             label = format_si(y_max, "ohm", 3)
@@ -146,7 +147,8 @@ def resistance_chart(width: int, height: int, *, turns_max: float,
             label = ""
         out.append(label.rjust(Y_LABEL_WIDTH - 1) + " ", STYLE_AXIS)
         out.append("┤" if label else "│", STYLE_AXIS)
-        out.append_text(line)
+        for chunk, style in line.parts:
+            out.append(chunk, style)
         out.append("\n")
     out.append(" " * (Y_LABEL_WIDTH - 1) + "0└" + "─" * plot_w + "\n", STYLE_AXIS)
     mid = _turns_text(x_max / 2)
@@ -159,4 +161,4 @@ def resistance_chart(width: int, height: int, *, turns_max: float,
     for i, ch in enumerate(right):
         axis[len(axis) - len(right) + i] = ch
     out.append(" " * Y_LABEL_WIDTH + "".join(axis), STYLE_AXIS)
-    return out
+    return out.text()

@@ -31,6 +31,7 @@ from winder.tui.widgets import ChartView, FillBar, GuideTrack, SectionView
 from winder.units import format_si
 
 REFRESH_HZ = 12.0
+READOUT_EVERY = 3       # refresh ticks between updates of the numeric read-outs (4 Hz)
 
 LINK_TEXT = {
     "offline": ("○ offline", "#8a94a6"),
@@ -86,6 +87,11 @@ class MonitorScreen(Screen[None]):
         self._control_closed = False
         self._last_line = ""
         self._repeats = 0
+        self._shown: dict[str, Text] = {}
+        self._readouts_due = True
+        self._readouts_pending = False
+        self._readout_tick = 0
+        self._ticks = 0
 
     # ----- layout
     def compose(self) -> ComposeResult:
@@ -154,9 +160,26 @@ class MonitorScreen(Screen[None]):
             self._flush_repeats(log)
             self._last_line = line.text
             log.write(self._log_text(line))
+        self._ticks += 1
+        late = self._ticks - self._readout_tick >= READOUT_EVERY
         if not (batch.changed or batch.readings or force):
+            if self._readouts_pending and late and self.last is not None:
+                self._readouts_due = True        # the count stopped: show the last figures
+                self._readout_tick = self._ticks
+                self._readouts_pending = False
+                self._show(self.last, self.status)
             return
-        self.status = batch.status
+        prev, st = self.status, batch.status
+        # Numeric read-outs change every READOUT_EVERY ticks (a person cannot read a number
+        # changing 12 times a second, and every update costs a redraw of its panel);
+        # anything else that changed shows at once.
+        self._readouts_due = (force or batch.readings != [] or late or
+                              (prev.state, prev.link, prev.stop_turns, prev.faults) !=
+                              (st.state, st.link, st.stop_turns, st.faults))
+        if self._readouts_due:
+            self._readout_tick = self._ticks
+        self._readouts_pending = not self._readouts_due
+        self.status = st
         self.frames += 1
         f = figures(self.plan, batch.status.turns, batch.status.rpm,
                     schedule=self.schedule, readings=self.readings,
@@ -174,26 +197,48 @@ class MonitorScreen(Screen[None]):
         stamp = time.strftime("%H:%M:%S", self.clock(line.at))
         return Text.assemble((stamp + " ", "#5a5f6b"), (line.text, LOG_STYLE.get(line.kind, "")))
 
+    def _set(self, selector: str, content: Text, readout: bool = False) -> None:
+        """Update a Static only when its content changed, and re-lay out the screen only
+        when its shape changed (a layout pass costs more than the rest of a frame).
+        A ``readout`` (a number that moves with the count) waits for its frame."""
+        if readout and not self._readouts_due and selector in self._shown:
+            return
+        old = self._shown.get(selector)
+        if old == content:
+            return
+        self._shown[selector] = content
+        # The panels' lines fill their width; only the top bar's pieces size to content.
+        if selector in ("#mon-state", "#mon-link"):
+            relayout = old is None or len(old.plain) != len(content.plain)
+        else:
+            relayout = old is None or old.plain.count("\n") != content.plain.count("\n")
+        self.query_one(selector, Static).update(content, layout=relayout)
+
     def _show(self, f: Figures, st: Status) -> None:
         q = self.query_one
-        q("#count", Digits).update(_thousands(f.turns))
+        digits = q("#count", Digits)
+        if digits.value != _thousands(f.turns):
+            digits.update(_thousands(f.turns))
         pct = f.fraction * 100
-        q("#count-of", Static).update(Text.assemble(
+        self._set("#count-of", Text.assemble(
             ("of ", "#8a94a6"), (_thousands(f.planned_turns), "bold"),
-            (" planned  ", "#8a94a6"), (f"{pct:5.1f} %", "bold #5fd7af")))
+            (" planned  ", "#8a94a6"), (f"{pct:5.1f} %", "bold #5fd7af")), readout=True)
         bar = q("#count-bar", ProgressBar)
-        bar.update(total=max(f.planned_turns, 1.0), progress=min(f.turns, f.planned_turns))
-        q("#count-speed", Static).update(Text.assemble(
+        total = max(f.planned_turns, 1.0)
+        done = round(min(f.turns, f.planned_turns) / total * 500) / 500 * total  # bar steps
+        if (bar.total, bar.progress) != (total, done):
+            bar.update(total=total, progress=done)
+        self._set("#count-speed", Text.assemble(
             ("speed ", "#8a94a6"), (f"{f.rpm:5.0f} rpm", "bold"),
-            ("   left ", "#8a94a6"), (duration_text(f.remaining_s), "bold")))
+            ("   left ", "#8a94a6"), (duration_text(f.remaining_s), "bold")), readout=True)
         # Traverse.
         if f.pass_index is not None:
             arrow = {"outward": "→ outward", "homeward": "← homeward"}.get(f.direction or "", "")
-            q("#pass-text", Static).update(Text.assemble(
+            self._set("#pass-text", Text.assemble(
                 ("pass ", "#8a94a6"), (f"{f.pass_index + 1} / {f.pass_count}", "bold"),
                 ("  ", ""), (arrow, "bold #5fd7af")))
         else:
-            q("#pass-text", Static).update(Text("no schedule: wind evenly across", "#8a94a6"))
+            self._set("#pass-text", Text("no schedule: wind evenly across", "#8a94a6"))
         q(GuideTrack).set_position(f.guide_mm, st.guide_mm, f.direction)
         parts: list[tuple[str, str]] = []
         if f.guide_mm is not None:
@@ -202,19 +247,19 @@ class MonitorScreen(Screen[None]):
             parts += [("  guide ", "#8a94a6"), (f"{st.guide_mm:5.1f} mm", "bold")]
         parts += [("  of ", "#8a94a6"), (f"{self.plan.bobbin.window_width_m * 1e3:.1f} mm",
                                         "")]
-        q("#guide-text", Static).update(Text.assemble(*parts))
+        self._set("#guide-text", Text.assemble(*parts), readout=True)
         # Build.
         q(SectionView).show(self.plan.bobbin, float(self.plan.build_height_m), f.build_m)
         q(FillBar).set_fill(f.fill, float(self.plan.fill))
         msg = {"ok": ("of usable height", "#8a94a6"),
                "warn": ("NEAR THE RIM: 90 % of usable height", "bold #d9a440"),
                "full": ("AT THE RIM: usable height reached", "bold #ff5f5f")}[f.fill_level]
-        q("#fill-text", Static).update(Text.assemble(
-            (f"build {f.build_m * 1e3:.2f} mm ", "bold"), msg))
+        self._set("#fill-text", Text.assemble(
+            (f"build {f.build_m * 1e3:.2f} mm ", "bold"), msg), readout=True)
         # Resistance.
         e = f.estimate
         lines = Text.assemble(
-            ("now ", "#8a94a6"), (format_si(e.ohm, "ohm"), "bold #ffaf5f"),
+            ("now ", "#8a94a6"), (format_si(e.ohm, "ohm", 3), "bold #ffaf5f"),
             (f"  ({band_text(e.lo, e.hi)})", "#c0c6d0"),
             (" at 20 °C", "#8a94a6"),
             ("  calibrated" if e.calibrated else "  from the plan", "#6fa8c8"),
@@ -229,14 +274,14 @@ class MonitorScreen(Screen[None]):
             lines.append_text(Text.assemble(
                 ("\nlast reading ", "#8a94a6"), (format_si(r.ohm, "ohm"), "bold #ffaf5f"),
                 (f" at {_thousands(r.turns)} t, {r.temp_c:.1f} °C", "#8a94a6")))
-        q("#ohm-text", Static).update(lines)
+        self._set("#ohm-text", lines, readout=True)
         q(ChartView).set_state(f.turns, f.readings, e)
         # Top bar.
         label, colour = STATE_TEXT.get(st.state, (st.state.upper(), "#c0c6d0"))
-        q("#mon-state", Static).update(Text(f" {label} ", f"bold #14161a on {colour}"))
+        self._set("#mon-state", Text(f" {label} ", f"bold #14161a on {colour}"))
         ltext, lcol = LINK_TEXT.get(st.link, (st.link, "#c0c6d0"))
         detail = f" · {st.link_detail}" if st.link_detail else ""
-        q("#mon-link", Static).update(Text(f"link {ltext}{detail}", lcol))
+        self._set("#mon-link", Text(f"link {ltext}{detail}", lcol))
 
     # ----- actions
     def _do(self, what: str, fn: Any, *args: Any) -> bool:

@@ -18,6 +18,8 @@ from typing import Any
 
 from rich.text import Text
 
+from winder.tui.cells import CellText
+
 # Eighth blocks from empty to full, for the top cell of a column of build.
 _EIGHTHS = " ▁▂▃▄▅▆▇█"
 
@@ -99,7 +101,7 @@ def window_section(bobbin: Any, planned_m: float, wound_m: float | None = None, 
         put_label(wound_row, f" now  {wound_m * 1e3:6.2f} mm {wpct:4.0f} %",
                   STYLE_OVER if wound_m > usable_h else STYLE_WOUND)
 
-    out = Text(no_wrap=True, overflow="crop")
+    out = CellText()
     for r in range(rows):
         lo = (rows - 1 - r) * row_h        # bottom of this row, metres above the core
         out.append("▐", STYLE_FLANGE)
@@ -137,4 +139,4 @@ def window_section(bobbin: Any, planned_m: float, wound_m: float | None = None, 
     scale = (f" window {win_w * 1e3:.1f} mm · usable {usable_w * 1e3:.1f} mm"
              f" · ends {clear_end * 1e3:.1f} mm")
     out.append(scale[: width].ljust(width), STYLE_LABEL)
-    return out
+    return out.text()

@@ -6,12 +6,17 @@ itself at its current size; none of them is touched from another thread.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
+from rich.segment import Segment
+from rich.style import Style
 from rich.text import Text
+from textual.strip import Strip
 from textual.widget import Widget
 
+from winder.tui.cells import CellText
 from winder.tui.chart import resistance_chart
 from winder.tui.progress import Estimate, Reading, band_ratios, predicted_ohm
 from winder.tui.section import window_section
@@ -27,14 +32,28 @@ class SectionView(Widget):
         self.bobbin: Any = None
         self.planned_m = 0.0
         self.wound_m: float | None = None
+        self._key: tuple | None = None
 
     def show(self, bobbin: Any, planned_m: float, wound_m: float | None = None) -> None:
-        """Draw ``bobbin`` with builds in metres; redraws only when something changed."""
-        if wound_m is not None:
-            wound_m = round(wound_m, 6)  # micrometre steps: no redraw per turn of fine wire
-        if (bobbin, planned_m, wound_m) != (self.bobbin, self.planned_m, self.wound_m):
-            self.bobbin, self.planned_m, self.wound_m = bobbin, planned_m, wound_m
+        """Draw ``bobbin`` with builds in metres; redraws only when the picture changes.
+
+        The wound build is drawn to 1/8 of a row, so it is compared in those steps:
+        a fine wire grows the build by micrometres a turn, far below one step.
+        """
+        step = self._step(bobbin)
+        key = (id(bobbin), planned_m, None if wound_m is None else round(wound_m / step))
+        self.bobbin, self.planned_m, self.wound_m = bobbin, planned_m, wound_m
+        if key != self._key:
+            self._key = key
             self.refresh()
+
+    def _step(self, bobbin: Any) -> float:
+        rows = max(4, self.size.height - 2) if self.size.height else 10
+        return float(bobbin.window_height_m) / rows / 8
+
+    def on_resize(self) -> None:
+        self._key = None
+        self.refresh()
 
     def render(self) -> Text:
         if self.bobbin is None:
@@ -56,6 +75,7 @@ class ChartView(Widget):
         self.now_turns: float | None = None
         self.scale = 1.0
         self._curve: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray] | None = None
+        self._key: tuple | None = None
 
     def set_plan(self, plan: Any) -> None:
         """Sample the plan's model once (the curve does not change while winding)."""
@@ -65,20 +85,33 @@ class ChartView(Widget):
         ohm = predicted_ohm(plan, turns)
         lo_r, hi_r = band_ratios(plan)
         self._curve = (turns, ohm, ohm * lo_r, ohm * hi_r)
+        self._key = None
         self.refresh()
 
     def set_state(self, now_turns: float | None, readings: Sequence[Reading],
                   estimate: Estimate | None = None) -> None:
+        """The count now, the readings and the calibration; redraws only on a visible change.
+
+        The count is drawn as a dot column, so it is compared in steps of one dot
+        column (the turns axis span over twice the plot width in cells).
+        """
         # The curve follows the calibration: predicted x (measured / predicted).
         scale = 1.0
         if estimate is not None and estimate.calibrated and self.plan is not None:
             base = float(predicted_ohm(self.plan, max(now_turns or 0.0, 1.0)))
             scale = estimate.ohm / base if base > 0 else 1.0
-        key = (None if now_turns is None else round(now_turns), len(readings), round(scale, 6))
-        if key != (None if self.now_turns is None else round(self.now_turns),
-                   len(self.readings), round(self.scale, 6)):
-            self.now_turns, self.readings, self.scale = now_turns, list(readings), scale
+        span = float(self._curve[0][-1]) if self._curve is not None else 1.0
+        step = span / max(2 * (self.size.width - 11), 2)
+        key = (None if now_turns is None else round(now_turns / step), len(readings),
+               round(scale, 4))
+        self.now_turns, self.readings, self.scale = now_turns, list(readings), scale
+        if key != self._key:
+            self._key = key
             self.refresh()
+
+    def on_resize(self) -> None:
+        self._key = None
+        self.refresh()
 
     def render(self) -> Text:
         if self._curve is None:
@@ -107,6 +140,7 @@ class GuideTrack(Widget):
         self.target_mm: float | None = None
         self.guide_mm: float | None = None
         self.direction: str | None = None
+        self._key: tuple | None = None
 
     def set_window(self, window_mm: float, ends_mm: float) -> None:
         self.window_mm, self.ends_mm = max(window_mm, 1e-6), ends_mm
@@ -114,18 +148,19 @@ class GuideTrack(Widget):
 
     def set_position(self, target_mm: float | None, guide_mm: float | None,
                      direction: str | None) -> None:
-        key = (None if target_mm is None else round(target_mm, 1),
-               None if guide_mm is None else round(guide_mm, 1), direction)
-        if key != (None if self.target_mm is None else round(self.target_mm, 1),
-                   None if self.guide_mm is None else round(self.guide_mm, 1), self.direction):
-            self.target_mm, self.guide_mm, self.direction = target_mm, guide_mm, direction
+        """Positions in mm from the start flange; redraws only when a marker moves a cell."""
+        inner = max(4, self.size.width - 2)
+        key = (None if target_mm is None else self._col(target_mm, inner),
+               None if guide_mm is None else self._col(guide_mm, inner), direction)
+        self.target_mm, self.guide_mm, self.direction = target_mm, guide_mm, direction
+        if key != self._key:
+            self._key = key
             self.refresh()
 
     def _col(self, mm: float, inner: int) -> int:
         return max(0, min(inner - 1, int(mm / self.window_mm * inner)))
 
-    def render(self) -> Text:
-        inner = max(4, self.size.width - 2)
+    def _cells(self, inner: int) -> tuple[list[tuple[str, str]], list[str]]:
         ends = int(round(self.ends_mm / self.window_mm * inner))
         cells = [("─", "#4a5263") if (c < ends or c >= inner - ends) else ("━", "#8a94a6")
                  for c in range(inner)]
@@ -137,13 +172,28 @@ class GuideTrack(Widget):
             arrow = {"outward": "▶", "homeward": "◀"}.get(self.direction or "", "●")
             cells[col] = (arrow, "bold #5fd7af")
             under[col] = "▲"
-        out = Text(no_wrap=True, overflow="crop")
-        out.append("▐", "bold #8a94a6")
-        for ch, st in cells:
-            out.append(ch, st)
-        out.append("▌\n", "bold #8a94a6")
-        out.append(" " + "".join(under), "#5fd7af")
-        return out
+        return cells, under
+
+    def render_line(self, y: int) -> Strip:
+        """Line API: two lines of merged segments (cheaper than a Text per frame)."""
+        width = self.size.width
+        inner = max(4, width - 2)
+        cells, under = self._cells(inner)
+        out = CellText()
+        if y == 0:
+            out.append("▐", "bold #8a94a6")
+            for ch, st in cells:
+                out.append(ch, st)
+            out.append("▌", "bold #8a94a6")
+        elif y == 1:
+            out.append(" " + "".join(under), "#5fd7af")
+        segs = [Segment(chunk, _style(style)) for chunk, style in out.parts]
+        return Strip(segs).crop_extend(0, width, self.rich_style)
+
+
+@lru_cache(maxsize=64)
+def _style(text: str) -> Style:
+    return Style.parse(text) if text else Style()
 
 
 class FillBar(Widget):
@@ -171,7 +221,7 @@ class FillBar(Widget):
         warn, full = col(0.9), col(1.0)
         colour = ("#c43c3c" if self.fill >= 1.0 else "#d9a440" if self.fill >= 0.9
                   else "#5fd7af")
-        out = Text(no_wrap=True, overflow="crop")
+        out = CellText()
         out.append("[", "#8a94a6")
         for c in range(width):
             if c < n:
@@ -186,4 +236,4 @@ class FillBar(Widget):
                 out.append(" ")
         out.append("]", "#8a94a6")
         out.append(label, f"bold {colour}")
-        return out
+        return out.text()
