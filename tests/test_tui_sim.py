@@ -133,3 +133,36 @@ async def test_pause_stops_the_simulated_spindle_and_space_continues(demo):
     assert not sim.truth()["motor_running"]
     kinds = [e["kind"] for e in journal(setup)]
     assert kinds.count("paused") >= 2 and "continued" in kinds
+
+
+async def test_resume_in_the_monitor_continues_from_the_journal(demo):
+    from winder.tui.app import WinderApp
+    from winder.tui.wind import resume_control
+
+    app, setup, sim = demo
+    async with app.run_test(size=SIZE) as pilot:
+        await start_winding(app, pilot)
+        await pilot.press("q")
+        await pilot.pause()
+    stopped_at = [e for e in journal(setup) if "turns" in e][-1]["turns"]
+    assert stopped_at > 50
+    control, plan, sched = resume_control(setup.session.path, port=sim.device)
+    app2 = WinderApp(control=control, plan=plan, schedule=sched, autostart=True)
+    try:
+        async with app2.run_test(size=SIZE) as pilot:
+            await until(pilot, lambda: isinstance(app2.screen, CautionScreen), what="caution")
+            # Before the caution is acknowledged the journal count is shown, the motor idle.
+            assert not sim.truth()["motor_running"]
+            await pilot.press("y")
+            await until(pilot, lambda: isinstance(app2.screen, MonitorScreen), what="monitor")
+            await until(pilot, lambda: count_on_screen(app2) > stopped_at + 50,
+                        what="the count to go on from the journal")
+            await pilot.press("q")
+            await pilot.pause()
+    finally:
+        app2.close_control("test end")
+    assert not sim.truth()["motor_running"]
+    kinds = [e["kind"] for e in journal(setup)]
+    assert "resumed" in kinds
+    counts = [e["turns"] for e in journal(setup) if "turns" in e and e["kind"] == "checkpoint"]
+    assert counts == sorted(counts)               # the count never went back

@@ -98,6 +98,7 @@ class WindSetup:
     def __init__(self, port: str, *, machine_file: str | None = None,
                  session_dir: str | Path | None = None, root: Path | None = None,
                  stop_at_resistance: bool = False, auto_continue: bool = False,
+                 ambient_c: float | None = None,
                  original: Any = None, original_path: str | Path | None = None,
                  on_closed: list[Callable[[], None]] | None = None):
         self.port = port
@@ -106,6 +107,7 @@ class WindSetup:
         self.root = root
         self.stop_at_resistance = stop_at_resistance
         self.auto_continue = auto_continue
+        self.ambient_c = ambient_c
         self.original = original
         self.original_path = original_path
         self.on_closed = list(on_closed or [])
@@ -122,7 +124,7 @@ class WindSetup:
     def __call__(self, coil: Any, plan: Any, schedule: Any) -> RunnerControl:
         from winder.schedule import build_schedule
         from winder.session.prepare import Prepared, curve_for, machine_for, started_fields
-        from winder.session.runner import Runner
+        from winder.session.runner import Runner, check_stop_at_resistance
         from winder.session.session import Session
 
         if plan.fill > 1.0:
@@ -132,6 +134,10 @@ class WindSetup:
         try:
             info = link.info
             machine = machine_for(self.machine_file, info.capabilities, info.counts_per_rev)
+            tgt = coil.target
+            check_stop_at_resistance(self.stop_at_resistance,
+                                     tgt.value if tgt.kind == "resistance" else None,
+                                     frozenset(info.capabilities))
             sched = build_schedule(plan, machine)
             prep = Prepared(coil, plan, sched, machine, self.frozen_yaml(coil), curve_for(plan))
             sess = Session.create(coil_name=coil.name, coil_yaml=prep.coil_yaml,
@@ -146,7 +152,8 @@ class WindSetup:
         def make_runner(on_update: Callable[[Any], None]) -> Any:
             return Runner(sess, link, schedule=sched, machine=machine,
                           stop_at_resistance=self.stop_at_resistance,
-                          auto_continue=self.auto_continue, events=events, on_update=on_update)
+                          auto_continue=self.auto_continue, events=events,
+                          ambient_c=self.ambient_c, on_update=on_update)
 
         control = RunnerControl(link=link, session=sess, make_runner=make_runner,
                                 begin=lambda r: r.start(), traverse=machine.drives_traverse,
@@ -158,8 +165,8 @@ class WindSetup:
 
 def resume_control(session_ref: str | Path, *, port: str | None = None,
                    reading: Any = None, accept_correction: bool = False,
-                   stop_at_resistance: bool = False, auto_continue: bool = False
-                   ) -> tuple[RunnerControl, Any, Any]:
+                   stop_at_resistance: bool = False, auto_continue: bool = False,
+                   ambient_c: float | None = None) -> tuple[RunnerControl, Any, Any]:
     """(control, plan, schedule) for resuming a session; the runner resumes on start()."""
     from winder.session.prepare import load_frozen
     from winder.session.runner import Runner
@@ -191,7 +198,7 @@ def resume_control(session_ref: str | Path, *, port: str | None = None,
     def make_runner(on_update: Callable[[Any], None]) -> Any:
         return Runner(sess, link, schedule=sched, machine=machine,
                       stop_at_resistance=stop_at_resistance, auto_continue=auto_continue,
-                      events=events, on_update=on_update)
+                      events=events, ambient_c=ambient_c, on_update=on_update)
 
     def begin(runner: Any) -> None:
         got = reading
@@ -222,15 +229,19 @@ def resume_control(session_ref: str | Path, *, port: str | None = None,
 
 def run_wind(coil_path: str | Path, *, port: str, machine_file: str | None = None,
              session_dir: str | Path | None = None, stop_at_resistance: bool = False,
-             auto_continue: bool = False) -> int:
+             auto_continue: bool = False, ambient_c: float | None = None) -> int:
     """``winder wind COIL --port PORT``: the plan view, then the caution and the monitor."""
     from winder.profile import load_coil
     from winder.tui import run_plan
 
     coil = load_coil(coil_path)
+    if machine_file:
+        from winder.schedule import load_machine
+
+        load_machine(machine_file)          # a bad profile is refused before the UI opens
     setup = WindSetup(port, machine_file=machine_file, session_dir=session_dir,
                       stop_at_resistance=stop_at_resistance, auto_continue=auto_continue,
-                      original=coil, original_path=coil_path)
+                      ambient_c=ambient_c, original=coil, original_path=coil_path)
     rc = run_plan(coil, start_wind=setup)
     if setup.session is not None:
         _farewell(setup.session)
@@ -239,14 +250,14 @@ def run_wind(coil_path: str | Path, *, port: str, machine_file: str | None = Non
 
 def run_resume(session_ref: str | Path, *, port: str | None = None, reading: Any = None,
                accept_correction: bool = False, stop_at_resistance: bool = False,
-               auto_continue: bool = False) -> int:
+               auto_continue: bool = False, ambient_c: float | None = None) -> int:
     """``winder resume SESSION``: the monitor; space (after the caution) resumes."""
     from winder.tui import run_monitor
 
     control, plan, sched = resume_control(session_ref, port=port, reading=reading,
                                           accept_correction=accept_correction,
                                           stop_at_resistance=stop_at_resistance,
-                                          auto_continue=auto_continue)
+                                          auto_continue=auto_continue, ambient_c=ambient_c)
     rc = run_monitor(control, plan, sched, title=f"{plan.coil.name} · resume")
     _farewell(control.session)
     return rc
