@@ -38,6 +38,7 @@ from winder.wire import make_wire
 
 MAX_PROFILE_BYTES = 64 * 1024
 MAX_DIM_M = 2.0  # no bobbin dimension over 2 m
+MAX_NOTES_CHARS = 4000
 
 BOBBIN_KEYS = {"name", "notes", "core", "window", "clearance", "reference_inductance"}
 CORE_KEYS = {"round": {"shape", "diameter"}, "rect": {"shape", "width", "length", "corner_radius"}}
@@ -139,11 +140,20 @@ def _text(data: dict[str, Any], k: str, where: str, default: str) -> str:
     return v.strip()
 
 
+def _notes(data: dict[str, Any], where: str, key: str) -> None:
+    """``notes`` is free text (any other structure could be an alias bomb when re-dumped)."""
+    v = data.get("notes")
+    if v is not None and (not isinstance(v, str) or len(v) > MAX_NOTES_CHARS):
+        raise InputError(f"must be text of at most {MAX_NOTES_CHARS} characters", where=where,
+                         key=key)
+
+
 def bobbin_from_mapping(data: Any, where: str, prefix: str | None = None,
                         default_name: str = "bobbin") -> Bobbin:
     """Validate a bobbin mapping (as in a bobbin file or inline in a coil) into a Bobbin."""
     d = _mapping(data, where, prefix, BOBBIN_KEYS, {"core", "window"})
     name = _text(d, "name", where, default_name) if "name" in d else default_name
+    _notes(d, where, _join(prefix, "notes"))
     ck = _join(prefix, "core")
     core_d = d["core"]
     if not isinstance(core_d, dict):
@@ -288,6 +298,7 @@ def coil_from_mapping(data: Any, where: str, base: Path) -> Coil:
     """Validate a coil mapping; ``base`` is the coil file's path (for relative bobbins)."""
     d = _mapping(data, where, None, COIL_KEYS, {"bobbin", "wire", "target"})
     name = _text(d, "name", where, base.stem)
+    _notes(d, where, "notes")
     bobbin = _resolve_bobbin(d["bobbin"], base, where)
     return Coil(name=name, bobbin=bobbin, wire=_wire(d["wire"], where),
                 target=_target(d["target"], where), style=_style(d.get("style"), where),
