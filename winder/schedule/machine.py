@@ -121,6 +121,8 @@ def machine_from_dict(data: dict[str, Any]) -> Machine:
 
 _NUM = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
 _RATE_RE = re.compile(rf"^\s*({_NUM})\s*(.*?)\s*$")
+MAX_SPINDLE_RPM = 100_000.0
+MAX_SPINDLE_RPM_S = 1_000_000.0
 _SPEED_UNITS = {"rpm": 1.0, "rev/min": 1.0, "r/min": 1.0, "rev/s": 60.0, "rps": 60.0}
 _ACCEL_UNITS = {"rpm/s": 1.0, "rev/min/s": 1.0, "rev/s^2": 60.0, "rev/s**2": 60.0,
                 "rev/s2": 60.0}
@@ -157,6 +159,11 @@ def _spindle_rate(value: Any, table: dict[str, float], example: str, where: str,
     out = float(m.group(1)) * table[unit]
     if not math.isfinite(out) or out <= 0:
         raise InputError(f"{value!r} must be more than zero", where=where, key=key)
+    # generous bounds (ours): bench winder spindles turn a few thousand rpm
+    limit = MAX_SPINDLE_RPM if table is _SPEED_UNITS else MAX_SPINDLE_RPM_S
+    if out > limit:
+        raise InputError(f"{value!r} is out of range (at most {limit:g} "
+                         f"{'rpm' if table is _SPEED_UNITS else 'rpm/s'})", where=where, key=key)
     return out
 
 
