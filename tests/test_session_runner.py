@@ -263,3 +263,29 @@ def test_device_readings_carry_the_ambient_temperature(tmp_path, prep):
     assert got["temp_c"] == 25.0 and got["source"] == "device" and got["turns"] == 60.0
     # 3.0 ohm at 25 C is 3.0 / (1 + 0.00393 * 5) ohm at 20 C (IEC 60287-1-1 alpha)
     assert sess.state.reading_objects[-1].ohm_20c == pytest.approx(3.0 / 1.01965)
+
+
+def test_a_full_device_queue_is_retried_quietly_and_a_dry_queue_restarts(tmp_path, prep):
+    from winder.link.errors import CommandRejected
+
+    r, link, sess, updates = new_runner(tmp_path, prep)
+    r.start()
+    sent_before = len([c for c in link.calls if c[0] == "queue_pass"])
+    full = {"n": 1}
+    real = link.__getattr__("queue_pass")
+
+    def queue_pass(*a):
+        if full["n"]:
+            full["n"] -= 1
+            raise CommandRejected("PASS", "FUL")
+        real(*a)
+
+    link.__dict__["queue_pass"] = queue_pass
+    time.sleep(0.001)
+    feed(r, status(30, queued=0))                     # room, but the device says full
+    assert not [u for u in updates if u.kind == "warn"]
+    assert len([c for c in link.calls if c[0] == "queue_pass"]) == sent_before
+    link.calls.clear()
+    time.sleep(0.001)
+    feed(r, status(35, rpm=0.0, state="idle", queued=0))   # ran dry before the top-up
+    assert "queue_pass" in link.names() and link.names()[-1] == "go"

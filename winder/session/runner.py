@@ -158,6 +158,9 @@ class Runner:
         self._proposed_stop: float | None = None
         self._finishing = False
         self._fresh_after = 0.0
+        self._queue_t = 0.0
+        self._queued_guess = 0
+        self._started_run = False
         st = session.state
         check_stop_at_resistance(stop_at_resistance, st.target_ohm, self.caps)
 
@@ -357,6 +360,7 @@ class Runner:
         if clear is not None:
             self._safe(clear)
         self._fresh_after = time.monotonic()
+        self._queued_guess = 0             # the stop emptied the device queue
         if self.status is not None:
             self.status = _with_queued(self.status, 0)
         # plan from where the spindle came to rest: a status sent after the stop with the
@@ -373,9 +377,11 @@ class Runner:
 
     def _begin_run(self) -> None:
         if self.motor:
+            self._started_run = False
             self._plan_segments()
             self._top_up()
             self._safe(self.link.go)
+            self._started_run = True
         self.waiting = False
 
     def _goal(self) -> float:
@@ -400,7 +406,10 @@ class Runner:
         if not self._pending or not getattr(self.link, "connected", True):
             return
         qmax = int(getattr(self.link.info, "queue_max", 0) or 8)
-        queued = self.status.queued if self.status is not None else 0
+        st = self.status
+        queued = st.queued if st is not None else 0
+        if st is not None and getattr(st, "t", 0.0) < self._queue_t:
+            queued = max(queued, self._queued_guess)   # a status older than our last send
         room = max(0, qmax - 1 - queued)
         sent = 0
         while self._pending and sent < room:
@@ -408,14 +417,21 @@ class Runner:
             try:
                 self.link.queue_pass(s.start_mm, s.end_mm, s.turns, s.rpm)
             except WinderError as err:
-                self._emit("warn", f"could not queue a pass: {err}")
-                return
+                code = getattr(err, "code", "")
+                if code != "FUL":   # a full queue is only a late status: try again later
+                    self._emit("warn", f"could not queue a pass: {err}")
+                break
             self._pending.pop(0)
             self._queued_end = s.end_turns
             sent += 1
-        if sent and self.status is not None:
-            # count what we just sent until the next status says otherwise
-            self.status = _with_queued(self.status, queued + sent)
+        if sent:
+            self._queue_t = time.monotonic()
+            self._queued_guess = queued + sent
+            if st is not None:
+                self.status = _with_queued(st, queued + sent)
+                if st.state == "idle" and self._segment_goal is not None and not self.waiting \
+                        and self.session.state.state == "running" and self._started_run:
+                    self._safe(self.link.go)   # the queue ran dry before the top-up
 
     def _safe(self, fn: Callable[..., Any], *args: Any) -> bool:
         try:
