@@ -103,24 +103,43 @@ def check_reading(ohm_text: str, temp_text: str,
 
 
 class ReadingDialog(ModalScreen["ReadingEntry | None"]):
-    """Ask for a resistance reading and its temperature; refuse bad input and ask again."""
+    """Ask for a resistance reading and its temperature; refuse bad input and ask again.
+
+    ``now()`` gives (turns, expected ohm or None) at this moment: the reading is
+    journaled at the count when Log is pressed, and the plausibility check uses the
+    resistance expected then (the count goes on while the motor runs).
+    """
 
     BINDINGS = [Binding("escape", "cancel", "Cancel")]
 
-    def __init__(self, *, turns: float, expected_ohm: float | None, last_temp: str = "20 degC"):
+    def __init__(self, *, now: Callable[[], tuple[float, float | None]],
+                 last_temp: str = "20 degC"):
         super().__init__()
-        self.turns = turns
-        self.expected_ohm = expected_ohm
+        self.now = now
         self.last_temp = last_temp
         self._confirm: tuple[str, str] | None = None
 
+    @property
+    def turns(self) -> float:
+        return self.now()[0]
+
+    @property
+    def expected_ohm(self) -> float | None:
+        return self.now()[1]
+
+    def _head(self) -> str:
+        turns, expected = self.now()
+        head = f"Resistance reading · count now {turns:,.0f} turns".replace(",", " ")
+        if expected:
+            head += f" · expected about {format_si(expected, 'ohm', 3)}"
+        return head
+
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog", id="reading-box"):
-            yield Static(f"Resistance reading at {self.turns:,.0f} turns".replace(",", " "),
-                         classes="dialog-title")
-            hint = ("expected about " + format_si(self.expected_ohm, "ohm")
-                    if self.expected_ohm else "")
-            yield Label(f"Resistance (e.g. '5.92 kohm', '7.9 ohm')  {hint}")
+            yield Static(self._head(), classes="dialog-title", id="reading-head")
+            yield Static("Journaled at the count when you press Log; pause (space) first "
+                         "for a steady reading.", classes="dialog-hint")
+            yield Label("Resistance (e.g. '5.92 kohm', '7.9 ohm')")
             yield Input(placeholder="5.92 kohm", id="reading-ohm")
             yield Label("Coil temperature (e.g. '23 degC')")
             yield Input(value=self.last_temp, id="reading-temp")
@@ -129,8 +148,12 @@ class ReadingDialog(ModalScreen["ReadingEntry | None"]):
                 yield Button("Log", id="reading-log", variant="primary")
                 yield Button("Cancel", id="reading-cancel")
 
+    def _tick(self) -> None:
+        self.query_one("#reading-head", Static).update(self._head())
+
     def on_mount(self) -> None:
         self.query_one("#reading-ohm", Input).focus()
+        self.set_interval(0.25, self._tick, name="reading-head")
 
     def _error(self, text: str) -> None:
         self.query_one("#reading-error", Static).update(text)
@@ -140,7 +163,7 @@ class ReadingDialog(ModalScreen["ReadingEntry | None"]):
         ohm_text = self.query_one("#reading-ohm", Input).value
         temp_text = self.query_one("#reading-temp", Input).value
         try:
-            entry, caution = check_reading(ohm_text, temp_text, self.expected_ohm)
+            entry, caution = check_reading(ohm_text, temp_text, self.now()[1])
         except InputError as err:
             self._confirm = None
             self._error(f"[b red]Not logged:[/] {err.message}")
@@ -153,10 +176,7 @@ class ReadingDialog(ModalScreen["ReadingEntry | None"]):
         self.dismiss(entry)
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
-        if event.input.id == "reading-ohm":
-            self.query_one("#reading-temp", Input).focus()
-        else:
-            self.submit()
+        self.submit()          # Enter in either field logs (Tab moves between them)
 
     def on_button_pressed(self, event: Button.Pressed) -> None:
         if event.button.id == "reading-log":

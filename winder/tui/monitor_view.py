@@ -64,7 +64,7 @@ class MonitorScreen(Screen[None]):
         Binding("j", "mark_splice", "Splice"),
         Binding("n", "note", "Note"),
         Binding("x", "stop", "Stop"),
-        Binding("a", "accept_stop", "Accept stop", show=False),
+        Binding("a", "accept_stop", "Accept stop"),
         Binding("q", "quit_wind", "Quit"),
     ]
 
@@ -328,8 +328,10 @@ class MonitorScreen(Screen[None]):
             self._do("accept", accept)
 
     def action_reading(self) -> None:
-        turns = self.status.turns
-        expected = self.last.estimate.ohm if self.last and turns > 0 else None
+        def now() -> tuple[float, float | None]:
+            turns = self.status.turns
+            expected = self.last.estimate.ohm if self.last is not None and turns > 0 else None
+            return turns, expected
 
         def done(entry: ReadingEntry | None) -> None:
             if entry is None:
@@ -337,8 +339,7 @@ class MonitorScreen(Screen[None]):
             self.last_temp = f"{entry.temp_c:g} degC"
             self._do("reading", self.control.log_reading, entry.ohm, entry.temp_c)
 
-        self.app.push_screen(ReadingDialog(turns=turns, expected_ohm=expected,
-                                           last_temp=self.last_temp), done)
+        self.app.push_screen(ReadingDialog(now=now, last_temp=self.last_temp), done)
 
     def _ask_mark(self, kind: str, title: str, hint: str) -> None:
         def done(text: object | None) -> None:
