@@ -166,3 +166,20 @@ async def test_resume_in_the_monitor_continues_from_the_journal(demo):
     assert "resumed" in kinds
     counts = [e["turns"] for e in journal(setup) if "turns" in e and e["kind"] == "checkpoint"]
     assert counts == sorted(counts)               # the count never went back
+
+
+async def test_an_error_inside_the_ui_stops_the_motor(demo):
+    app, setup, sim = demo
+
+    def broken() -> None:
+        raise RuntimeError("a bug in a handler")
+
+    with pytest.raises(RuntimeError, match="a bug in a handler"):
+        async with app.run_test(size=SIZE) as pilot:
+            await start_winding(app, pilot)
+            assert sim.truth()["motor_running"]
+            app.call_later(broken)
+            await pilot.pause()
+            await pilot.pause()
+    assert not sim.truth()["motor_running"]
+    assert ("paused", "crash") in [(e["kind"], e.get("reason")) for e in journal(setup)]

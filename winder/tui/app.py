@@ -106,6 +106,13 @@ class WinderApp(App[int]):
         self.close_control("quit")
         self.exit(0)
 
+    def _handle_exception(self, error: Exception) -> None:
+        """An error inside the UI: stop the motor and journal before Textual exits."""
+        try:
+            self.close_control("crash")
+        finally:
+            super()._handle_exception(error)
+
 
 def run_app(app: WinderApp) -> int:
     """Run ``app`` in this terminal; close its control on any way out; return an exit code."""
