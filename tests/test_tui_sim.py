@@ -183,3 +183,22 @@ async def test_an_error_inside_the_ui_stops_the_motor(demo):
             await pilot.pause()
     assert not sim.truth()["motor_running"]
     assert ("paused", "crash") in [(e["kind"], e.get("reason")) for e in journal(setup)]
+
+
+async def test_link_loss_and_reboot_show_in_the_top_bar(demo):
+    app, setup, sim = demo
+    async with app.run_test(size=SIZE) as pilot:
+        await start_winding(app, pilot)
+        sim.control("drop 1.5")
+        await until(pilot, lambda: "reconnecting" in screen_text(app), what="reconnecting")
+        await until(pilot, lambda: "link ● connected" in screen_text(app), timeout=30,
+                    what="connected again")
+        assert "PAUSED" in screen_text(app)       # the runner waits for the user after a loss
+        assert not sim.truth()["motor_running"]
+        sim.control("reboot")
+        await until(pilot, lambda: "device rebooted" in screen_text(app), timeout=30,
+                    what="the reboot on screen")
+        await pilot.press("q")
+        await pilot.pause()
+    kinds = [e["kind"] for e in journal(setup)]
+    assert "link_lost" in kinds and "link_back" in kinds and "device_rebooted" in kinds
