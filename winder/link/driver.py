@@ -82,6 +82,11 @@ def _info_from_hello(h: Hello, url: str) -> DeviceInfo:
     )
 
 
+# a status count this many turns below the last one, with no HELLO, is checked by a new
+# handshake (a restart whose HELLO was lost on a noisy line)
+BACK_JUMP_TURNS = 5
+
+
 class WinderLink:
     """A connection to a winder (counter or controller) over any pyserial URL.
 
@@ -140,6 +145,7 @@ class WinderLink:
         self._closed = False
         self._opened = False
         self._tracker_seed = 0
+        self._accept_back = False
 
     # ---- public ---------------------------------------------------------------------
 
@@ -512,6 +518,10 @@ class WinderLink:
         self.stats.lines_ok += 1
         self._last_valid = now
         if isinstance(msg, StatusReport):
+            if self._went_back(msg.count):
+                self._recheck(f"count went back to {msg.count} with no HELLO", now)
+                return
+            self._accept_back = False
             total = self._tracker.update(msg.count)
             st = Status(
                 count=msg.count, turns=total / self._tracker.counts_per_rev, rpm=msg.rpm,
@@ -552,6 +562,40 @@ class WinderLink:
                     self.info = info
                 self._emit(DeviceEvent("boot", {"boot_id": msg.boot_id}, now))
                 self._emit(LinkRestored(True, info, self.turns, now))
+
+    def _went_back(self, raw: int) -> bool:
+        """A status count far below the last one: a device that restarted and whose HELLO
+        was lost (a noisy line), unless a re-handshake just said the boot is the same."""
+        tr = self._tracker
+        if self._plain or tr._last is None or self._accept_back:
+            return False
+        step = (raw % tr.wrap - tr._last) % tr.wrap
+        if step >= tr.wrap // 2:
+            step -= tr.wrap
+        return step <= -BACK_JUMP_TURNS * tr.counts_per_rev
+
+    def _recheck(self, reason: str, now: float) -> None:
+        """Handshake again on the open port (closing it may reset a microcontroller) and
+        report a link loss and its restoration, with the reboot found from the boot id."""
+        ser = self._ser
+        with self._cond:
+            was = self.connected
+            self.connected = False
+            self._cond.notify_all()
+        if was:
+            self.stats.losses += 1
+            log.info("link lost: %s", reason)
+            self._emit(LinkLost(reason, now))
+        try:
+            info = self._handshake(ser)
+        except LinkError as err:
+            log.debug("re-handshake: %s", err)
+            self._lost(reason)
+            return
+        rebooted = self._install(ser, info, first=False)
+        self._accept_back = not rebooted
+        self.stats.reconnects += 1
+        self._emit(LinkRestored(rebooted, info, self.turns, time.monotonic()))
 
     def _publish(self, st: Status) -> None:
         with self._cond:
