@@ -202,3 +202,26 @@ async def test_link_loss_and_reboot_show_in_the_top_bar(demo):
         await pilot.pause()
     kinds = [e["kind"] for e in journal(setup)]
     assert "link_lost" in kinds and "link_back" in kinds and "device_rebooted" in kinds
+
+
+async def test_hand_winding_needs_no_caution_and_guides_the_wire(tmp_path):
+    app, setup, sim = demo_app(coil="driver-8ohm", speedup=SPEEDUP, hand=True,
+                               workdir=tmp_path)
+    try:
+        async with app.run_test(size=SIZE) as pilot:
+            await pilot.pause()
+            await pilot.press("enter")
+            await until(pilot, lambda: isinstance(app.screen, MonitorScreen), what="monitor")
+            assert not app.control.motor                 # a counter: nothing to caution
+            assert not isinstance(app.screen, CautionScreen)
+            await until(pilot, lambda: count_on_screen(app) > 5, what="cranked turns")
+            text = screen_text(app)
+            assert "wire at" in text and "guide" not in text.split("wire at")[1][:20]
+            assert "▲" in text                          # where the wire should be now
+            await pilot.press("q")
+            await pilot.pause()
+    finally:
+        app.close_control("test end")
+        sim.close()
+    kinds = [e["kind"] for e in journal(setup)]
+    assert "started" in kinds

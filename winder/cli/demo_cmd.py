@@ -23,6 +23,9 @@ def register(sub: argparse._SubParsersAction) -> None:
                         "see the profiles/coils directory")
     p.add_argument("--speedup", type=float, default=1.0, metavar="K",
                    help="run the simulated winder K times faster than real time (default 1)")
+    p.add_argument("--hand", action="store_true",
+                   help="simulate hand winding on a turn counter (no motor): the monitor "
+                        "shows where the wire should be as the count grows")
     p.add_argument("--keep", action="store_true",
                    help="keep the demo session directory (its path is printed on exit)")
     p.set_defaults(func=cmd_demo)
@@ -31,4 +34,4 @@ def register(sub: argparse._SubParsersAction) -> None:
 def cmd_demo(args: argparse.Namespace) -> int:
     from winder.tui.demo import run_demo
 
-    return run_demo(coil=args.coil, speedup=args.speedup, keep=args.keep)
+    return run_demo(coil=args.coil, speedup=args.speedup, keep=args.keep, hand=args.hand)

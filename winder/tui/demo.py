@@ -28,9 +28,13 @@ def example_coil_path(name: str) -> Path:
     return path
 
 
-def demo_app(*, coil: str = "sense-6k2", speedup: float = 1.0,
+def demo_app(*, coil: str = "sense-6k2", speedup: float = 1.0, hand: bool = False,
              workdir: Path | None = None) -> tuple[Any, Any, Any]:
-    """(app, setup, sim): the demo app, not yet run. The caller closes ``sim``."""
+    """(app, setup, sim): the demo app, not yet run. The caller closes ``sim``.
+
+    ``hand`` simulates a turn counter on a hand-cranked spindle instead of a motor
+    winder: no motor, so no caution; the monitor shows where the wire should be.
+    """
     from winder.link.simproc import start_sim
     from winder.profile import load_coil
     from winder.tui.app import WinderApp
@@ -41,28 +45,29 @@ def demo_app(*, coil: str = "sense-6k2", speedup: float = 1.0,
     path = example_coil_path(coil)
     loaded = load_coil(path)
     work = Path(workdir) if workdir is not None else Path(tempfile.mkdtemp(prefix="winder-demo-"))
-    sim = start_sim(speedup=speedup)
+    sim = start_sim(mode="counter" if hand else "controller", speedup=speedup)
     setup = WindSetup(sim.device, session_dir=work / "session", original=loaded,
                       original_path=path)
-    app = WinderApp(coil=loaded, start_wind=setup,
-                    title=f"{loaded.name} · demo on the simulated winder")
+    what = "hand winding on a simulated counter" if hand else "demo on the simulated winder"
+    app = WinderApp(coil=loaded, start_wind=setup, title=f"{loaded.name} · {what}")
     return app, setup, sim
 
 
-def run_demo(*, coil: str = "sense-6k2", speedup: float = 1.0, keep: bool = False) -> int:
+def run_demo(*, coil: str = "sense-6k2", speedup: float = 1.0, keep: bool = False,
+             hand: bool = False) -> int:
     """Run the demo in this terminal; returns the exit code."""
     from winder.tui.app import run_app
 
     work = Path(tempfile.mkdtemp(prefix="winder-demo-"))
     sim = None
     try:
-        app, setup, sim = demo_app(coil=coil, speedup=speedup, workdir=work)
+        app, setup, sim = demo_app(coil=coil, speedup=speedup, hand=hand, workdir=work)
         rc = run_app(app)
         sess = setup.session
         if sess is not None:
             st = sess.state
-            print(f"demo: {st.state} at {st.turns:g} turns, {len(st.readings)} reading(s); "
-                  "the simulated motor is stopped.")
+            print(f"demo: {st.state} at {st.turns:g} turns, {len(st.readings)} reading(s)"
+                  + ("." if hand else "; the simulated motor is stopped."))
         if keep:
             print(f"demo session kept in {work / 'session'}")
         return rc
