@@ -56,6 +56,7 @@ MILESTONES = (0.5, 0.8, 0.9, 0.95, 0.98)
 MAX_STOP_FACTOR = 1.25      # the stop point never moves past 1.25 x the planned turns
 READING_TIMEOUT_S = 3.0
 SETTLE_TIMEOUT_S = 15.0
+TOP_UP_BUDGET_S = 0.2   # sending passes while winding yields to statuses after this
 
 
 class LinkLike(Protocol):
@@ -301,6 +302,10 @@ class Runner:
             return 0.0
         rpm = st.rpm
         if rpm <= 0:
+            # running, but no checkpoint with a speed since the last start or continue:
+            # the spindle may have reached full speed right after it
+            rpm = float(getattr(getattr(self.machine, "spindle", None), "max_rpm", 0.0) or 0.0)
+        if rpm <= 0:
             return 0.0
         wd = float(getattr(self.link.info, "watchdog_s", 1.0) or 1.0)
         return math.ceil(rpm / 60.0 * (self.policy.interval_s + wd) + self._decel_turns(rpm))
@@ -401,8 +406,9 @@ class Runner:
         self._pending = make_segments(self.schedule, self.machine, self.turns, goal)
         self._queued_end = self.turns
 
-    def _top_up(self) -> None:
-        """Send pending segments while the device queue has room."""
+    def _top_up(self, budget_s: float | None = None) -> None:
+        """Send pending segments while the device queue has room (and, given a budget,
+        until ``budget_s`` seconds have gone on sending; the rest waits for the next call)."""
         if not self._pending or not getattr(self.link, "connected", True):
             return
         qmax = int(getattr(self.link.info, "queue_max", 0) or 8)
@@ -412,7 +418,8 @@ class Runner:
             queued = max(queued, self._queued_guess)   # a status older than our last send
         room = max(0, qmax - 1 - queued)
         sent = 0
-        while self._pending and sent < room:
+        t_end = time.monotonic() + budget_s if budget_s is not None else math.inf
+        while self._pending and sent < room and time.monotonic() < t_end:
             s = self._pending[0]
             try:
                 self.link.queue_pass(s.start_mm, s.end_mm, s.turns, s.rpm)
@@ -503,7 +510,9 @@ class Runner:
             self._fault(", ".join(sorted(st.faults)))
             return
         if self.motor and not self.waiting and self.session.state.state == "running":
-            self._top_up()
+            # on a noisy line a pass can take several tries; statuses (checkpoints) must
+            # not wait behind a whole queue's worth of them
+            self._top_up(budget_s=TOP_UP_BUDGET_S)
             self._maybe_measure(turns)
             self._check_goal(st)
 
