@@ -98,3 +98,23 @@ def test_parser_never_raises_anything_but_input_error(text):
 def test_format_si():
     assert format_si(6200.0, "ohm") == "6.2 kohm"
     assert format_si(63e-6, "m") == "63 um"
+
+
+@pytest.mark.parametrize(
+    ("text", "kind", "expected"),
+    [
+        # SI prefixes (BIPM SI Brochure, 9th ed., Table 7)
+        ("1 km", "length", 1e3), ("1 cm", "length", 1e-2), ("1 um", "length", 1e-6),
+        ("1 µm", "length", 1e-6), ("1 nm", "length", 1e-9), ("1 micron", "length", 1e-6),
+        # the international inch is exactly 25.4 mm (1959 agreement); foot = 12 in
+        ("1 in", "length", 0.0254), ("1 ft", "length", 0.3048), ("1 thou", "length", 25.4e-6),
+        ("1 Mohm", "resistance", 1e6), ("1 mohm", "resistance", 1e-3),
+        ("1 mV", "voltage", 1e-3), ("1 kV", "voltage", 1e3),
+        ("1 uA", "current", 1e-6), ("1 mA", "current", 1e-3),
+        ("1 mH", "inductance", 1e-3), ("400 uH", "inductance", 400e-6),
+        ("1 g", "mass", 1e-3), ("1 kg", "mass", 1.0), ("1 min", "time", 60.0),
+        ("1 h", "time", 3600.0), ("1 kHz", "frequency", 1e3), ("1 mW", "power", 1e-3),
+    ],
+)
+def test_unit_table(text, kind, expected):
+    assert parse(text, kind) == pytest.approx(expected, rel=1e-12)
