@@ -251,12 +251,10 @@ def cmd_resume(args: argparse.Namespace) -> int:
     from winder.session.calibration import Reading
     from winder.session.runner import Runner
     from winder.session.session import Session
-    from winder.units import parse_resistance, parse_temperature
 
     reading = None
     if args.reading:
-        ohm = parse_resistance(args.reading, where="--reading")
-        temp = parse_temperature(args.temp, where="--temp") if args.temp else None
+        ohm, temp = parse_reading(args.reading, args.temp, "--reading", "--temp")
         reading = Reading(0.0, ohm, temp, "at resume")
     ambient = _ambient(args)
     if not args.headless:
@@ -321,9 +319,33 @@ def cmd_resume(args: argparse.Namespace) -> int:
 def _ambient(args: argparse.Namespace) -> float | None:
     if not args.ambient:
         return None
+    return _room_temperature(args.ambient, "--ambient")
+
+
+# the bounds of the terminal UI's reading dialog (winder/tui/dialogs.py)
+READING_MAX_OHM = 100e6
+READING_TEMP_RANGE_C = (-10.0, 80.0)
+
+
+def _room_temperature(text: str, where: str) -> float:
     from winder.units import parse_temperature
 
-    return parse_temperature(args.ambient, where="--ambient")
+    t = parse_temperature(text, where=where)
+    lo, hi = READING_TEMP_RANGE_C
+    if not lo <= t <= hi:
+        raise InputError(f"{text!r} is outside {lo:g} to {hi:g} degC; measure the coil at "
+                         "room temperature", where=where)
+    return t
+
+
+def parse_reading(ohm_text: str, temp_text: str | None, where: str,
+                  temp_where: str | None = None) -> tuple[float, float | None]:
+    """A typed resistance reading and its temperature, parsed and range-checked (ohm, degC)."""
+    from winder.units import parse_resistance
+
+    ohm = parse_resistance(ohm_text, where=where, maximum=READING_MAX_OHM)
+    temp = _room_temperature(temp_text, temp_where or where) if temp_text else None
+    return ohm, temp
 
 
 def _fmt_ohm(x: float) -> str:
@@ -399,7 +421,6 @@ def _read_keys(runner) -> None:
 
 def handle_key(runner, line: str) -> None:
     """One typed command (see KEYS_HELP) to a runner action."""
-    from winder.units import parse_resistance, parse_temperature
 
     text = line.strip()
     if not text:
@@ -413,8 +434,7 @@ def handle_key(runner, line: str) -> None:
         runner.cont()
     elif cmd in ("r", "reading"):
         ohm_text, temp_text = split_reading(rest)
-        ohm = parse_resistance(ohm_text, where="reading")
-        temp = parse_temperature(temp_text, where="reading") if temp_text else None
+        ohm, temp = parse_reading(ohm_text, temp_text, "reading")
         runner.reading(ohm, temp)
     elif cmd in ("n", "note"):
         runner.note(rest)
@@ -423,18 +443,30 @@ def handle_key(runner, line: str) -> None:
     elif cmd in ("s", "splice"):
         runner.splice(rest)
     elif cmd in ("a", "accept"):
-        runner.accept_stop(float(rest) if rest else None)
+        runner.accept_stop(typed_turns(rest, "a [TURNS], e.g. 'a 1234'") if rest else None)
     elif cmd in ("k", "count"):
-        try:
-            runner.correct_count(float(rest), "user")
-        except ValueError:
-            raise InputError("k needs a turn count, e.g. 'k 1234'", where="keys") from None
+        runner.correct_count(typed_turns(rest, "k needs a turn count, e.g. 'k 1234'"), "user")
     elif cmd in ("q", "quit", "stop"):
         runner.stop("quit")
     elif cmd in ("x", "abort"):
         runner.abort("user")
     else:
         raise InputError(f"unknown key {cmd!r}; {KEYS_HELP}", where="keys")
+
+
+MAX_TYPED_TURNS = 10 ** 8   # the profile loader's limit on target turns
+
+
+def typed_turns(text: str, usage: str) -> float:
+    """A turn count typed at the keys: a finite number from 0 to 100,000,000."""
+    try:
+        v = float(text)
+    except ValueError:
+        raise InputError(usage, where="keys") from None
+    if not (0 <= v <= MAX_TYPED_TURNS):   # also refuses nan and inf
+        raise InputError(f"{text!r} is not a turn count from 0 to {MAX_TYPED_TURNS}; {usage}",
+                         where="keys")
+    return v
 
 
 def split_reading(text: str) -> tuple[str, str | None]:
