@@ -118,3 +118,23 @@ def test_format_si():
 )
 def test_unit_table(text, kind, expected):
     assert parse(text, kind) == pytest.approx(expected, rel=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("text", "kind", "expected"),
+    [
+        # 1 rev/s = 60 rpm by definition of the minute
+        ("1500 rpm", "spindle speed", 1500.0), ("25 rev/s", "spindle speed", 1500.0),
+        ("25 rps", "spindle speed", 1500.0), ("600 rpm/s", "spindle acceleration", 600.0),
+        ("1 rev/s^2", "spindle acceleration", 60.0), ("1 rev/s2", "spindle acceleration", 60.0),
+        ("25 mm/s", "speed", 0.025), ("250 mm/s^2", "acceleration", 0.25),
+        ("250 mm/s**2", "acceleration", 0.25),
+    ],
+)
+def test_rates(text, kind, expected):
+    assert parse(text, kind) == pytest.approx(expected, rel=1e-12)
+
+
+def test_a_frequency_is_not_a_spindle_speed():
+    with pytest.raises(InputError, match="not a spindle speed"):
+        parse("1500 Hz", "spindle speed")

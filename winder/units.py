@@ -43,7 +43,14 @@ DIMENSIONS = {
     "mass": "[mass]",
     "frequency": "1 / [time]",
     "power": "[mass] * [length] ** 2 / [time] ** 3",
+    "speed": "[length] / [time]",
+    "acceleration": "[length] / [time] ** 2",
+    "spindle speed": "[rotation] / [time]",
+    "spindle acceleration": "[rotation] / [time] ** 2",
 }
+
+# SI value -> the unit callers want for spindle kinds (rev/s -> rpm, rev/s^2 -> rpm/s).
+_SI_TO_CALLER = {"spindle speed": 60.0, "spindle acceleration": 60.0}
 
 # Example strings used in messages, so the user sees what is expected.
 EXAMPLES = {
@@ -56,6 +63,10 @@ EXAMPLES = {
     "mass": "'12 g'",
     "frequency": "'50 Hz'",
     "power": "'2 W'",
+    "speed": "'25 mm/s'",
+    "acceleration": "'250 mm/s^2'",
+    "spindle speed": "'1500 rpm' or '25 rev/s'",
+    "spindle acceleration": "'600 rpm/s'",
     "temperature": "'25 degC'",
 }
 
@@ -68,6 +79,8 @@ _UNIT_ALIASES = [
     (re.compile(r"\bmils?\b"), "thou"),
     (re.compile(r"(?<![A-Za-z])([kMmµu]?)(?:Ohms?|OHMS?|ohms?|Ω)(?![A-Za-z])"), r"\1ohm"),
     (re.compile(r"µ"), "u"),
+    (re.compile(r"\^"), "**"),
+    (re.compile(r"(?<=[A-Za-z])(\d)\b"), r"**\1"),  # 's2' -> 's**2'
 ]
 _TEMP_ALIASES = {"c": "degC", "°c": "degC", "degc": "degC", "celsius": "degC",
                  "k": "kelvin", "kelvin": "kelvin", "f": "degF", "°f": "degF", "degf": "degF"}
@@ -126,7 +139,8 @@ def parse(text: Any, kind: str, *, where: str | None = None, key: str | None = N
     """Parse a quantity string of the given ``kind`` into an SI float.
 
     ``kind`` is a key of :data:`DIMENSIONS` ('length' gives metres, 'resistance'
-    ohms, 'voltage' volts, 'current' amperes, ...). ``positive`` refuses
+    ohms, 'voltage' volts, 'current' amperes, 'speed' m/s, 'acceleration' m/s²,
+    ...), except 'spindle speed' (rpm) and 'spindle acceleration' (rpm/s). ``positive`` refuses
     negatives (and zero unless ``allow_zero``); ``maximum`` (SI) refuses absurd
     values. ``where``/``key`` locate the value in messages.
     """
@@ -147,7 +161,7 @@ def parse(text: Any, kind: str, *, where: str | None = None, key: str | None = N
     if not ok:
         raise InputError(f"{text!r} is not a {kind} (its unit is {unit!r}); expected e.g. "
                          f"{EXAMPLES[kind]}", **loc)
-    value = float(q.to_base_units().magnitude)
+    value = float(q.to_base_units().magnitude) * _SI_TO_CALLER.get(kind, 1.0)
     _check_range(value, text, positive, allow_zero, maximum, loc)
     return value
 

@@ -36,14 +36,12 @@ line naming the file and the key.
 from __future__ import annotations
 
 import difflib
-import math
-import re
 from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Any
 
 from winder.errors import InputError
-from winder.units import registry
+from winder.units import parse
 
 KINDS = ("counter", "spindle", "spindle+traverse")
 
@@ -119,13 +117,8 @@ def machine_from_dict(data: dict[str, Any]) -> Machine:
 
 # --- parsing ---------------------------------------------------------------------------------
 
-_NUM = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
-_RATE_RE = re.compile(rf"^\s*({_NUM})\s*(.*?)\s*$")
 MAX_SPINDLE_RPM = 100_000.0
 MAX_SPINDLE_RPM_S = 1_000_000.0
-_SPEED_UNITS = {"rpm": 1.0, "rev/min": 1.0, "r/min": 1.0, "rev/s": 60.0, "rps": 60.0}
-_ACCEL_UNITS = {"rpm/s": 1.0, "rev/min/s": 1.0, "rev/s^2": 60.0, "rev/s**2": 60.0,
-                "rev/s2": 60.0}
 
 TOP_KEYS = ("name", "kind", "counts_per_rev", "spindle", "traverse")
 SPINDLE_KEYS = ("steps_per_rev", "max_speed", "acceleration", "slow_speed", "slow_start_turns",
@@ -143,57 +136,16 @@ def _unknown(keys: Any, allowed: tuple[str, ...], where: str, prefix: str) -> No
             raise InputError(f"unknown key{hint}", where=where, key=f"{prefix}{k}")
 
 
-def _spindle_rate(value: Any, table: dict[str, float], example: str, where: str,
-                  key: str) -> float:
-    """Parse '1500 rpm' / '25 rev/s' (speed) or '600 rpm/s' (acceleration) into rpm or rpm/s."""
-    if isinstance(value, bool) or not isinstance(value, str):
-        raise InputError(f"expected text with units, e.g. {example}, got {value!r}",
-                         where=where, key=key)
-    if re.search(r"\d,\d", value):
-        raise InputError(f"{value!r} has a decimal comma; write a point", where=where, key=key)
-    m = _RATE_RE.match(value)
-    unit = m.group(2).replace(" ", "").lower() if m else ""
-    if not m or unit not in table:
-        raise InputError(f"{value!r} is not understood; write e.g. {example} "
-                         f"(units: {', '.join(table)})", where=where, key=key)
-    out = float(m.group(1)) * table[unit]
-    if not math.isfinite(out) or out <= 0:
-        raise InputError(f"{value!r} must be more than zero", where=where, key=key)
+def _spindle_rate(value: Any, kind: str, where: str, key: str) -> float:
+    """Parse '1500 rpm' / '25 rev/s' ('spindle speed', rpm) or '600 rpm/s' (rpm/s)."""
     # generous bounds (ours): bench winder spindles turn a few thousand rpm
-    limit = MAX_SPINDLE_RPM if table is _SPEED_UNITS else MAX_SPINDLE_RPM_S
-    if out > limit:
-        raise InputError(f"{value!r} is out of range (at most {limit:g} "
-                         f"{'rpm' if table is _SPEED_UNITS else 'rpm/s'})", where=where, key=key)
-    return out
+    limit = MAX_SPINDLE_RPM if kind == "spindle speed" else MAX_SPINDLE_RPM_S
+    return parse(value, kind, where=where, key=key, maximum=limit)
 
 
-def _linear(value: Any, dim: str, example: str, where: str, key: str,
-            allow_zero: bool = False) -> float:
-    """Parse a linear quantity ('2 mm', '25 mm/s', '250 mm/s^2') into SI with dimension ``dim``."""
-    if isinstance(value, bool) or not isinstance(value, str):
-        raise InputError(f"expected text with units, e.g. {example}, got {value!r}",
-                         where=where, key=key)
-    if re.search(r"\d,\d", value):
-        raise InputError(f"{value!r} has a decimal comma; write a point", where=where, key=key)
-    m = _RATE_RE.match(value)
-    if not m or not m.group(2):
-        raise InputError(f"{value!r} needs a number and a unit, e.g. {example}",
-                         where=where, key=key)
-    ureg = registry()
-    try:
-        q = ureg.Quantity(float(m.group(1)), ureg.parse_units(m.group(2).replace("^", "**")))
-        ok = q.check(dim)
-    except Exception as err:  # pint raises several families; all mean "not a unit"
-        raise InputError(f"{value!r}: unknown unit; write e.g. {example}",
-                         where=where, key=key) from err
-    if not ok:
-        raise InputError(f"{value!r} has the wrong unit; write e.g. {example}",
-                         where=where, key=key)
-    out = float(q.to_base_units().magnitude)
-    if not math.isfinite(out) or out < 0 or (out == 0 and not allow_zero):
-        need = "zero or more" if allow_zero else "more than zero"
-        raise InputError(f"{value!r} must be {need}", where=where, key=key)
-    return out
+def _linear(value: Any, kind: str, where: str, key: str, allow_zero: bool = False) -> float:
+    """Parse a linear quantity ('2 mm', '25 mm/s', '250 mm/s^2') of ``kind`` into SI."""
+    return parse(value, kind, where=where, key=key, allow_zero=allow_zero)
 
 
 def _mm(metres: float) -> str:
@@ -239,12 +191,12 @@ def machine_from_mapping(data: Any, where: str = "machine profile") -> Machine:
     k = "spindle."
     spindle = Spindle(
         steps_per_rev=_count(sp.get("steps_per_rev", d.steps_per_rev), where, k + "steps_per_rev"),
-        max_rpm=_spindle_rate(sp.get("max_speed", f"{d.max_rpm} rpm"), _SPEED_UNITS,
-                              "'1500 rpm'", where, k + "max_speed"),
-        accel_rpm_s=_spindle_rate(sp.get("acceleration", f"{d.accel_rpm_s} rpm/s"), _ACCEL_UNITS,
-                                  "'600 rpm/s'", where, k + "acceleration"),
-        slow_rpm=_spindle_rate(sp.get("slow_speed", f"{d.slow_rpm} rpm"), _SPEED_UNITS,
-                               "'300 rpm'", where, k + "slow_speed"),
+        max_rpm=_spindle_rate(sp.get("max_speed", f"{d.max_rpm} rpm"), "spindle speed",
+                              where, k + "max_speed"),
+        accel_rpm_s=_spindle_rate(sp.get("acceleration", f"{d.accel_rpm_s} rpm/s"),
+                                  "spindle acceleration", where, k + "acceleration"),
+        slow_rpm=_spindle_rate(sp.get("slow_speed", f"{d.slow_rpm} rpm"), "spindle speed",
+                               where, k + "slow_speed"),
         slow_start_turns=_count(sp.get("slow_start_turns", d.slow_start_turns), where,
                                 k + "slow_start_turns", minimum=0),
         slow_finish_turns=_count(sp.get("slow_finish_turns", d.slow_finish_turns), where,
@@ -263,18 +215,18 @@ def machine_from_mapping(data: Any, where: str = "machine profile") -> Machine:
         raise InputError(f"expected a number of turns above 0, got {rev!r}", where=where,
                          key=k + "reversal_turns")
     traverse = Traverse(
-        lead_m=_linear(tr.get("lead", _mm(t.lead_m)), "[length]", "'2 mm'", where, k + "lead"),
+        lead_m=_linear(tr.get("lead", _mm(t.lead_m)), "length", where, k + "lead"),
         steps_per_rev=_count(tr.get("steps_per_rev", t.steps_per_rev), where,
                              k + "steps_per_rev"),
-        travel_m=_linear(tr.get("travel", _mm(t.travel_m)), "[length]", "'100 mm'", where,
+        travel_m=_linear(tr.get("travel", _mm(t.travel_m)), "length", where,
                          k + "travel"),
-        start_flange_m=_linear(tr.get("start_flange_at", _mm(t.start_flange_m)), "[length]",
-                               "'5 mm'", where, k + "start_flange_at", allow_zero=True),
-        max_speed_m_s=_linear(tr.get("max_speed", f"{t.max_speed_m_s!r} m/s"),
-                              "[length]/[time]", "'25 mm/s'", where, k + "max_speed"),
-        accel_m_s2=_linear(tr.get("acceleration", f"{t.accel_m_s2!r} m/s^2"),
-                           "[length]/[time]**2", "'250 mm/s^2'", where, k + "acceleration"),
-        backlash_m=_linear(tr.get("backlash", _mm(t.backlash_m)), "[length]", "'0.02 mm'",
+        start_flange_m=_linear(tr.get("start_flange_at", _mm(t.start_flange_m)), "length",
+                               where, k + "start_flange_at", allow_zero=True),
+        max_speed_m_s=_linear(tr.get("max_speed", f"{t.max_speed_m_s!r} m/s"), "speed",
+                              where, k + "max_speed"),
+        accel_m_s2=_linear(tr.get("acceleration", f"{t.accel_m_s2!r} m/s^2"), "acceleration",
+                           where, k + "acceleration"),
+        backlash_m=_linear(tr.get("backlash", _mm(t.backlash_m)), "length",
                            where, k + "backlash", allow_zero=True),
         reversal_turns=float(rev),
     )
