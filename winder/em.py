@@ -17,20 +17,31 @@ Inductance (air core)
     ``L = 0.8 a² N² / (6a + 9b + 10c)``, a = mean radius, b = length, c = depth.
     Wheeler claims about 1 % when the three denominator terms are comparable. Measured
     here against Maxwell's coaxial-loop mutual inductance summed over a filament grid
-    of square cells (:func:`filament_inductance_h`; 11737 proportions,
-    0.1 <= b/a <= 10, 0.05 <= c/a <= 1.9; tests/test_em.py re-checks 30 of them with
-    an independent scipy implementation), the error by the spread
+    of square cells (:func:`filament_inductance_h` at 8 and 16 cells across the shorter
+    side, extrapolated with its 1/n² convergence, L16 + (L16 - L8) / 3; the
+    extrapolation moves the figure by at most 0.53 % and agrees with 32 cells to
+    0.003 %), over 0.1 <= b/a <= 10, 0.05 <= c/a <= 1.9: a log grid of 11770
+    proportions plus 6751 on the band edges s = 1.5, 2, 3, 5 (the error grows with the
+    spread, so each band's extremes sit on its edge; the worst low reading of every
+    edge is at 9b = 6a, 10c = s 6a). tests/test_em.py re-checks 30 proportions and the
+    edge corners with an independent scipy implementation. The error by the spread
     s = max/min of (6a, 9b, 10c)::
 
-        s <= 1.5   -1.3 % .. +0.8 %      s <= 3     -5.2 % .. +4.6 %
-        s <= 2     -2.1 % .. +1.7 %      s <= 5     -8.1 % .. +8.6 %
-        whole range: -11.0 % (long thin coils, b/a = 10) .. +20.4 % (long full
+        s <= 1.5   -1.41 % .. +0.83 %     s <= 3     -5.46 % .. +3.56 %
+        s <= 2     -2.26 % .. +1.79 %     s <= 5     -8.14 % .. +8.32 %
+        whole range: -11.0 % (long thin coils, b/a = 10) .. +19.7 % (long full
         coils, c/a near 2: almost no core)
+
+    (An earlier measurement on the log grid alone against the 8-cell sum read
+    -1.29 / -2.14 / -5.15 at s <= 1.5 / 2 / 3: it missed the edge corners, and the
+    bands rounded from it were too tight there; re-measured as above.)
 
     So on round cores :func:`air_core_estimate` uses Wheeler where s <= 2 and the
     filament sum itself (error under 1 %, :data:`FILAMENT_BAND_PCT`) elsewhere.
-    :data:`WHEELER_BANDS_PCT` holds these bands rounded outward, and
-    :func:`air_core_band_pct` picks the one for a coil.
+    :data:`WHEELER_BANDS_PCT` holds these bands rounded outward (at least 0.05 %
+    beyond the measured extremes), and :func:`air_core_band_pct` picks the one for a
+    coil; a spread within 1e-9 of a band's limit counts as on it, so a coil exactly on
+    an edge gets the same band however its spread was rounded.
 
     *Rectangular cores* go through an equivalent round coil for the mean turn: Wheeler's
     a² is the turn's enclosed area over pi (a long coil's inductance goes as its area)
@@ -249,11 +260,12 @@ def wheeler_spread(mean_radius_m: float, length_m: float, depth_m: float) -> flo
     return max(t) / min(t) if min(t) > 0.0 else math.inf
 
 
-# Measured error of wheeler_h against the filament reference (tests/test_em.py), percent,
-# by the spread of the denominator terms, over 0.1 <= b/a <= 10 and 0.05 <= c/a <= 1.9,
-# rounded outward.
-WHEELER_BANDS_PCT = ((1.5, (-1.4, 0.9)), (2.0, (-2.3, 1.8)), (3.0, (-5.3, 4.7)),
+# Measured error of wheeler_h against the extrapolated filament reference (module
+# docstring), percent, by the spread of the denominator terms, over 0.1 <= b/a <= 10 and
+# 0.05 <= c/a <= 1.9, band edges included, rounded outward.
+WHEELER_BANDS_PCT = ((1.5, (-1.5, 0.9)), (2.0, (-2.4, 1.9)), (3.0, (-5.6, 4.7)),
                      (5.0, (-8.3, 9.6)), (math.inf, (-12.0, 21.5)))
+SPREAD_TIE_REL = 1e-9  # a spread this close to a band limit (relative) is on the limit
 # The same for rectangular cores through the equivalent below, aspect ratio up to 12.
 # Measured up to a spread of 7.6, aspect up to 24; beyond 5 the round coil's widest band.
 RECT_BANDS_PCT = ((3.0, (0.0, 9.0)), (5.0, (-4.5, 9.0)), (math.inf, (-12.0, 21.5)))
@@ -266,7 +278,7 @@ def wheeler_band_pct(spread: float, core: str = "round") -> tuple[float, float]:
     returned and may not hold."""
     bands = WHEELER_BANDS_PCT if core == "round" else RECT_BANDS_PCT
     for limit, band in bands:
-        if spread <= limit:
+        if spread <= limit * (1.0 + SPREAD_TIE_REL):
             return band
     return bands[-1][1]
 
@@ -407,7 +419,7 @@ def air_core_estimate(shape: CoilShape) -> tuple[float, str, tuple[float, float]
     proportions."""
     if shape.core == "round":
         a = shape.inner_radius_m + shape.build_m / 2.0
-        if wheeler_spread(a, shape.length_m, shape.build_m) > 2.0:
+        if wheeler_spread(a, shape.length_m, shape.build_m) > 2.0 * (1.0 + SPREAD_TIE_REL):
             return filament_inductance_h(shape), "filament", FILAMENT_BAND_PCT
     return air_core_inductance_h(shape), "wheeler", air_core_band_pct(shape)
 
