@@ -17,7 +17,7 @@ from collections.abc import Sequence
 from rich.text import Text
 
 from winder.tui.cells import CellText
-from winder.units import format_si
+from winder.tui.progress import ohm_text
 
 # Braille dot bits by (column, row) inside a cell; rows count down from the top.
 _DOTS = ((0x01, 0x02, 0x04, 0x40), (0x08, 0x10, 0x20, 0x80))
@@ -140,9 +140,9 @@ def resistance_chart(width: int, height: int, *, turns_max: float,
     out = CellText()
     for row, line in enumerate(cv.text()):
         if row == 0:
-            label = format_si(y_max, "ohm", 3)
+            label = ohm_text(y_max, 3)
         elif row == plot_h // 2:
-            label = format_si(y_max / 2, "ohm", 3)
+            label = ohm_text(y_max / 2, 3)
         else:
             label = ""
         out.append(label.rjust(Y_LABEL_WIDTH - 1) + " ", STYLE_AXIS)

@@ -10,6 +10,7 @@ from __future__ import annotations
 from collections.abc import Callable
 from dataclasses import dataclass
 
+from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
@@ -17,7 +18,8 @@ from textual.screen import ModalScreen
 from textual.widgets import Button, Input, Label, Static
 
 from winder.errors import InputError
-from winder.units import format_si, parse_resistance, parse_temperature
+from winder.tui.progress import ohm_text
+from winder.units import parse_resistance, parse_temperature
 
 # A bench reading: ambient and hand-warm coils. Outside this the entry is a typo
 # or the coil needs to cool (common practice, no source).
@@ -77,14 +79,14 @@ class ReadingEntry:
     temp_c: float
 
 
-def check_reading(ohm_text: str, temp_text: str,
+def check_reading(resistance_text: str, temp_text: str,
                   expected_ohm: float | None = None) -> tuple[ReadingEntry, str | None]:
     """Parse and range-check a typed reading.
 
     Returns the entry and a caution (a reading far from ``expected_ohm``, which
     the user must confirm) or raises :class:`InputError` for input to refuse.
     """
-    ohm = parse_resistance(ohm_text.strip(), where="reading", key="resistance",
+    ohm = parse_resistance(resistance_text.strip(), where="reading", key="resistance",
                            maximum=READING_MAX_OHM)
     temp_text = temp_text.strip() or "20 degC"
     temp_c = parse_temperature(temp_text, where="reading", key="temperature")
@@ -96,8 +98,8 @@ def check_reading(ohm_text: str, temp_text: str,
     if expected_ohm and expected_ohm > 0:
         ratio = ohm / expected_ohm
         if ratio > PLAUSIBLE_RATIO or ratio < 1 / PLAUSIBLE_RATIO:
-            caution = (f"{format_si(ohm, 'ohm')} is {ratio:.2g} x the "
-                       f"{format_si(expected_ohm, 'ohm')} expected here: check the unit "
+            caution = (f"{ohm_text(ohm)} is {ratio:.2g} x the "
+                       f"{ohm_text(expected_ohm)} expected here: check the unit "
                        "and the meter leads; press Log again to record it anyway")
     return ReadingEntry(ohm, temp_c), caution
 
@@ -131,7 +133,7 @@ class ReadingDialog(ModalScreen["ReadingEntry | None"]):
         turns, expected = self.now()
         head = f"Resistance reading · count now {turns:,.0f} turns".replace(",", " ")
         if expected:
-            head += f" · expected about {format_si(expected, 'ohm', 3)}"
+            head += f" · expected about {ohm_text(expected, 3)}"
         return head
 
     def compose(self) -> ComposeResult:
@@ -155,23 +157,23 @@ class ReadingDialog(ModalScreen["ReadingEntry | None"]):
         self.query_one("#reading-ohm", Input).focus()
         self.set_interval(0.25, self._tick, name="reading-head")
 
-    def _error(self, text: str) -> None:
+    def _error(self, text: Text) -> None:
         self.query_one("#reading-error", Static).update(text)
 
     def submit(self) -> None:
         """Parse the entries; dismiss with the reading, or show why not and stay open."""
-        ohm_text = self.query_one("#reading-ohm", Input).value
+        typed_ohm = self.query_one("#reading-ohm", Input).value
         temp_text = self.query_one("#reading-temp", Input).value
         try:
-            entry, caution = check_reading(ohm_text, temp_text, self.now()[1])
+            entry, caution = check_reading(typed_ohm, temp_text, self.now()[1])
         except InputError as err:
             self._confirm = None
-            self._error(f"[b red]Not logged:[/] {err.message}")
+            self._error(Text.assemble(("Not logged: ", "bold red"), err.message))
             self.query_one("#reading-ohm", Input).focus()
             return
-        if caution and self._confirm != (ohm_text, temp_text):
-            self._confirm = (ohm_text, temp_text)
-            self._error(f"[b yellow]Check:[/] {caution}")
+        if caution and self._confirm != (typed_ohm, temp_text):
+            self._confirm = (typed_ohm, temp_text)
+            self._error(Text.assemble(("Check: ", "bold yellow"), caution))
             return
         self.dismiss(entry)
 
@@ -217,7 +219,8 @@ class EntryDialog(ModalScreen["object | None"]):
         try:
             result = self.parse(text)
         except InputError as err:
-            self.query_one("#entry-error", Static).update(f"[b red]Not accepted:[/] {err.message}")
+            self.query_one("#entry-error", Static).update(
+                Text.assemble(("Not accepted: ", "bold red"), err.message))
             return
         self.dismiss(result)
 

@@ -26,9 +26,8 @@ from textual.widgets import Digits, Footer, ProgressBar, RichLog, Static
 from winder.errors import WinderError
 from winder.tui.dialogs import CautionScreen, EntryDialog, ReadingDialog, ReadingEntry
 from winder.tui.feed import Batch, LogLine, Status, WindControl
-from winder.tui.progress import Figures, Reading, band_text, duration_text, figures
+from winder.tui.progress import Figures, Reading, band_text, duration_text, figures, ohm_text
 from winder.tui.widgets import ChartView, FillBar, GuideTrack, SectionView
-from winder.units import format_si
 
 REFRESH_HZ = 12.0
 READOUT_EVERY = 3       # refresh ticks between updates of the numeric read-outs (4 Hz)
@@ -259,20 +258,20 @@ class MonitorScreen(Screen[None]):
         # Resistance.
         e = f.estimate
         lines = Text.assemble(
-            ("now ", "#8a94a6"), (format_si(e.ohm, "ohm", 3), "bold #ffaf5f"),
+            ("now ", "#8a94a6"), (ohm_text(e.ohm, 3), "bold #ffaf5f"),
             (f"  ({band_text(e.lo, e.hi)})", "#c0c6d0"),
             (" at 20 °C", "#8a94a6"),
             ("  calibrated" if e.calibrated else "  from the plan", "#6fa8c8"),
-            ("\ntarget ", "#8a94a6"), (format_si(float(self.plan.resistance_ohm), "ohm"), "bold"),
+            ("\ntarget ", "#8a94a6"), (ohm_text(float(self.plan.resistance_ohm)), "bold"),
             (f" at {_thousands(f.planned_turns)} turns", "#8a94a6"))
         if f.final is not None and f.final.calibrated:
             lines.append_text(Text.assemble(
-                ("  expect ", "#8a94a6"), (format_si(f.final.ohm, "ohm"), "bold #ffaf5f"),
+                ("  expect ", "#8a94a6"), (ohm_text(f.final.ohm), "bold #ffaf5f"),
                 (" there", "#8a94a6")))
         if f.readings:
             r = f.readings[-1]
             lines.append_text(Text.assemble(
-                ("\nlast reading ", "#8a94a6"), (format_si(r.ohm, "ohm"), "bold #ffaf5f"),
+                ("\nlast reading ", "#8a94a6"), (ohm_text(r.ohm), "bold #ffaf5f"),
                 (f" at {_thousands(r.turns)} t, {r.temp_c:.1f} °C", "#8a94a6")))
         self._set("#ohm-text", lines, readout=True)
         q(ChartView).set_state(f.turns, f.readings, e)

@@ -26,10 +26,10 @@ from textual.widgets import Footer, Static
 
 from winder.errors import InputError, WinderError
 from winder.tui.dialogs import EntryDialog
-from winder.tui.progress import band_text, duration_text
+from winder.tui.progress import band_text, duration_text, ohm_text
 from winder.tui.section import core_text
 from winder.tui.widgets import SectionView
-from winder.units import format_si, parse_resistance
+from winder.units import parse_resistance
 
 STYLES = ("layer", "orthocyclic", "scatter")
 
@@ -121,7 +121,7 @@ def parse_target(text: str) -> tuple[str, float | None]:
 def target_text(target: Any) -> str:
     kind, value = target.kind, target.value
     if kind == "resistance" and value:
-        return format_si(float(value), "ohm")
+        return ohm_text(float(value))
     if kind == "turns" and value:
         return f"{value:,.0f} turns"
     if kind == "fill":
@@ -283,10 +283,10 @@ class PlanScreen(Screen[None]):
         f.add_row("wire length", f"{plan.wire_length_m:,.1f} m".replace(",", " "),
                   f"{plan.mass_kg * 1e3:.1f} g of wire")
         lo, hi = plan.resistance_band_ohm
-        f.add_row("resistance", Text(format_si(plan.resistance_ohm, "ohm"), "bold #ffaf5f"),
+        f.add_row("resistance", Text(ohm_text(plan.resistance_ohm), "bold #ffaf5f"),
                   f"{band_text(lo, hi)} at 20 °C")
         if abs(plan.temp_c - 20.0) > 1e-9:
-            f.add_row("", format_si(plan.resistance_at_temp_ohm, "ohm"),
+            f.add_row("", ohm_text(plan.resistance_at_temp_ohm),
                       f"at {plan.temp_c:g} °C")
         if self.schedule is not None:
             f.add_row("time", duration_text(self.schedule.est_time_s),
@@ -321,7 +321,7 @@ class PlanScreen(Screen[None]):
             t.add_row(Text(("▶ " if r.current else "  ") + r.wire, style),
                       f"{r.turns:,}".replace(",", " "), layers,
                       Text(f"{fill * 100:.0f} %", fill_style),
-                      format_si(r.resistance_ohm or 0.0, "ohm", 3),
+                      ohm_text(r.resistance_ohm or 0.0, 3),
                       f"{r.length_m or 0:,.0f} m".replace(",", " "), style=style)
         self.query_one("#gauges", Static).update(t)
         over = [r for r in self.compare_rows if r.fill is not None and r.fill > 1]

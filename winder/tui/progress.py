@@ -200,11 +200,24 @@ def figures(plan: Any, turns: float, rpm: float = 0.0, *, schedule: Any | None =
     )
 
 
+def ohm_text(value: float, digits: int = 4) -> str:
+    """A resistance for the screen: '6.2 kohm', '7.9 ohm', '0.493 ohm'.
+
+    Below 1 ohm the value stays in ohms: 'mohm' reads too easily as megohm.
+    """
+    from winder.units import format_si
+
+    if 0 < abs(value) < 1:
+        return f"{value:.{digits}g} ohm"
+    return format_si(value, "ohm", digits)
+
+
 def band_text(lo: float, hi: float, unit: str = "ohm", digits: int = 3) -> str:
     """'7.21–8.46 kohm' (one prefix when both ends share it) or '980 ohm–1.02 kohm'."""
     from winder.units import format_si
 
-    a, b = format_si(lo, unit, digits), format_si(hi, unit, digits)
+    fmt = ohm_text if unit == "ohm" else (lambda v, d: format_si(v, unit, d))
+    a, b = fmt(lo, digits), fmt(hi, digits)
     ua, ub = a.split(" ", 1)[1], b.split(" ", 1)[1]
     if ua == ub:
         return f"{a.split(' ', 1)[0]}–{b}"

@@ -159,7 +159,7 @@ class WindSetup:
                                 begin=lambda r: r.start(), traverse=machine.drives_traverse,
                                 guide_offset_mm=_flange_mm(machine), on_closed=self.on_closed)
         control.plan, control.schedule = plan, sched  # type: ignore[attr-defined]
-        control.feed.log(f"session {sess.id} at {sess.path}", "info")
+        control.feed.log(f"session journal: {sess.path}", "info")
         return control
 
 
