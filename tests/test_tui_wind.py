@@ -1,0 +1,39 @@
+"""A coil changed in the plan view is frozen into the session as changed: the profile
+mapping written for it loads back (through the real profile loader) to the same plan."""
+
+from __future__ import annotations
+
+import dataclasses
+from pathlib import Path
+
+import pytest
+import yaml
+
+from tests.conftest import PROFILES
+from winder.planner import Target, make_plan
+from winder.profile import coil_from_mapping, load_coil
+from winder.tui.wind import coil_mapping, coil_yaml
+from winder.wire import make_wire
+
+
+@pytest.mark.parametrize("name", sorted(p.stem for p in (PROFILES / "coils").glob("*.yaml")))
+def test_every_shipped_coil_round_trips(name, tmp_path):
+    coil = load_coil(PROFILES / "coils" / f"{name}.yaml")
+    text = coil_yaml(coil, "test")
+    back = coil_from_mapping(yaml.safe_load(text), "frozen", tmp_path / "coil.yaml")
+    assert dataclasses.replace(back, source=None) == dataclasses.replace(coil, source=None)
+    a, b = make_plan(coil, force=True), make_plan(back, force=True)
+    assert (a.turns, a.resistance_ohm) == (b.turns, b.resistance_ohm)
+
+
+def test_a_changed_coil_round_trips(tmp_path):
+    coil = load_coil(PROFILES / "coils" / "sense-6k2.yaml")
+    changed = dataclasses.replace(coil, wire=make_wire("43 AWG", "heavy"),
+                                  target=Target("turns", 9000.0),
+                                  style=dataclasses.replace(coil.style, kind="layer"))
+    data = coil_mapping(changed)
+    assert data["wire"] == {"size": "43 AWG", "insulation": "heavy"}
+    assert data["target"] == {"turns": 9000}
+    back = coil_from_mapping(data, "frozen", Path(tmp_path / "c.yaml"))
+    assert make_plan(back, force=True).turns == 9000
+    assert back.wire == changed.wire and back.bobbin == changed.bobbin
