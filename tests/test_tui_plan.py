@@ -145,3 +145,21 @@ def test_target_and_size_helpers():
     assert step_size("42 AWG", thicker=True) == "41 AWG"
     assert step_size("0.063 mm", thicker=True) == "0.071 mm"    # IEC 60317 R20 series
     assert step_size("0.063 mm", thicker=False) == "0.056 mm"
+
+
+async def test_a_plan_that_does_not_fit_is_not_wound():
+    got = []
+    app = WinderApp(coil=pickup_coil(), planner=Planner.default(),
+                    start_wind=lambda *a: got.append(a))
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("t")
+        await pilot.pause()
+        app.screen.query_one("#entry-input", Input).value = "60000 turns"
+        await pilot.press("enter")
+        await pilot.pause()
+        assert app.screen.plan.fill > 1.0
+        assert "over-full" in screen_text(app)             # the planner's warning
+        await pilot.press("enter")
+        await pilot.pause()
+        assert got == []
+        assert "passes the usable height" in screen_text(app)
