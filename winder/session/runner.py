@@ -57,6 +57,7 @@ MAX_STOP_FACTOR = 1.25      # the stop point never moves past 1.25 x the planned
 READING_TIMEOUT_S = 3.0
 SETTLE_TIMEOUT_S = 15.0
 TOP_UP_BUDGET_S = 0.2   # sending passes while winding yields to statuses after this
+STALE_STATUS_S = 0.5    # a status older than this (a backlog) does not start a top-up
 
 
 class LinkLike(Protocol):
@@ -511,8 +512,10 @@ class Runner:
             return
         if self.motor and not self.waiting and self.session.state.state == "running":
             # on a noisy line a pass can take several tries; statuses (checkpoints) must
-            # not wait behind a whole queue's worth of them
-            self._top_up(budget_s=TOP_UP_BUDGET_S)
+            # not wait behind a whole queue's worth of them, nor stale statuses queued
+            # behind a slow command each start another top-up
+            if time.monotonic() - getattr(st, "t", time.monotonic()) < STALE_STATUS_S:
+                self._top_up(budget_s=TOP_UP_BUDGET_S)
             self._maybe_measure(turns)
             self._check_goal(st)
 
