@@ -160,6 +160,7 @@ class Runner:
         self._proposed_stop: float | None = None
         self._finishing = False
         self._fresh_after = 0.0
+        self._resync = False     # a pass went unacknowledged: the device queue is unknown
         self._queue_t = 0.0
         self._queued_guess = 0
         self._started_run = False
@@ -428,6 +429,10 @@ class Runner:
                 code = getattr(err, "code", "")
                 if code != "FUL":   # a full queue is only a late status: try again later
                     self._emit("warn", f"could not queue a pass: {err}")
+                if type(err).__name__ == "CommandTimeout":
+                    # every acknowledgement lost: the device may hold the pass already, and
+                    # sending it again under a new number would wind it twice
+                    self._resync = True
                 break
             self._pending.pop(0)
             self._queued_end = s.end_turns
@@ -509,6 +514,15 @@ class Runner:
             self._progress(st)
         if st.faults and self.state.state == "running" and not self.waiting:
             self._fault(", ".join(sorted(st.faults)))
+            return
+        if self._resync and self.motor and not self.waiting \
+                and self.session.state.state == "running":
+            self._emit("info", "restarting the pass queue from the device's count")
+            if not self._safe(self.link.stop):   # HALT empties the device queue
+                return                           # not acknowledged either: next status
+            self._clear_device()
+            self._resync = False
+            self._begin_run()
             return
         if self.motor and not self.waiting and self.session.state.state == "running":
             # on a noisy line a pass can take several tries; statuses (checkpoints) must
