@@ -64,3 +64,25 @@ def test_metric_and_scatter():
 def test_needs_a_target():
     with pytest.raises(InputError):
         rank_gauges(driver_bobbin(), None)
+
+
+@pytest.mark.parametrize("drive", [{"drive_v": 2.0}, {"drive_a": 0.2}])
+def test_drive_figures_per_size(drive):
+    # each size's hot state: P = I² R_hot with R_hot = R20 (1 + alpha (T - 20)),
+    # alpha of copper 0.00393 /K (IEC 60287-1-1 Table 1), T = 25 C ambient + rise
+    b = driver_bobbin()
+    opts = [o for o in rank_gauges(b, 8.0, distance_m=3e-3, **drive) if o.fits]
+    assert opts
+    for o in opts:
+        r_hot = o.resistance_ohm * (1 + 0.00393 * (25.0 + o.temp_rise_c - 20.0))
+        assert o.power_w == pytest.approx(o.current_a ** 2 * r_hot, rel=1e-9)
+        if "drive_v" in drive:
+            assert o.current_a == pytest.approx(2.0 / r_hot, rel=1e-9)
+        else:
+            assert o.current_a == 0.2 and o.ampere_turns == pytest.approx(0.2 * o.turns)
+        assert o.field_at_point_mT > 0
+    # at a fixed voltage and resistance the power hardly changes with the size, but more
+    # turns (thicker wire) give more field at the point
+    fields = [o.field_at_point_mT for o in opts]
+    if "drive_v" in drive:
+        assert fields == sorted(fields, reverse=True)

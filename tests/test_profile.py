@@ -80,6 +80,26 @@ def test_reference_inductance(tmp_path):
     assert b.reference_inductance == (pytest.approx(1.2), 5000)
 
 
+def test_drive_section_and_thermal_class(tmp_path):
+    write(tmp_path, "bobbin.yaml", BOBBIN)
+    coil = load_coil(write(tmp_path, "c.yaml", coil_text(
+        wire="{size: 42 AWG, insulation: heavy, thermal_class: 155}",
+        extra="drive: {voltage: 2 V, distance: 3 mm, ambient: 30 degC}\n")))
+    d = coil.drive
+    assert (d.voltage_v, d.current_a, d.ambient_c) == (2.0, None, 30.0)
+    assert d.distance_m == pytest.approx(3e-3)
+    assert coil.wire.thermal_class_c == 155.0
+    amps = load_coil(write(tmp_path, "a.yaml", coil_text(
+        wire="{size: 42 AWG, thermal_class: 180 degC}", extra="drive: {current: 25 mA}\n")))
+    assert amps.drive.current_a == pytest.approx(0.025) and amps.drive.distance_m is None
+    assert amps.drive.ambient_c == 25.0  # default ambient
+    assert amps.wire.thermal_class_c == 180.0
+    plain = load_coil(write(tmp_path, "p.yaml", coil_text()))
+    assert plain.drive is None and plain.wire.thermal_class_c is None
+    # not stated: the documented default class is assumed where a figure needs one
+    assert plain.wire.thermal_class_or_default_c == 130.0
+
+
 @pytest.mark.parametrize(
     ("text", "key", "fragment"),
     [
@@ -95,6 +115,22 @@ def test_reference_inductance(tmp_path):
         (coil_text(extra="style: {kind: wild}\n"), "style.kind", "unknown winding style"),
         (coil_text("missing.yaml"), "bobbin", "not found"),
         ("name: c\nwire: {size: 42 AWG}\ntarget: {fill: true}\n", "bobbin", "missing"),
+        (coil_text(extra="drive: {voltge: 2 V}\n"), "drive.voltge", "did you mean 'voltage'"),
+        (coil_text(extra="drive: {voltage: 2 V, current: 0.5 A}\n"), "drive", "exactly one"),
+        (coil_text(extra="drive: {distance: 3 mm}\n"), "drive", "exactly one"),
+        (coil_text(extra="drive: {voltage: 2 A}\n"), "drive.voltage", "is not a voltage"),
+        (coil_text(extra="drive: {current: -1 A}\n"), "drive.current", "more than zero"),
+        (coil_text(extra="drive: {voltage: 2 V, distance: 3}\n"), "drive.distance",
+         "bare number"),
+        (coil_text(extra="drive: {voltage: 2 V, ambient: 900 degC}\n"), "drive.ambient",
+         "not plausible"),
+        (coil_text(extra="drive: 2 V\n"), "drive", "expected a mapping"),
+        (coil_text(wire="{size: 42 AWG, thermal_class: 150}"), "wire.thermal_class",
+         "not a thermal class"),
+        (coil_text(wire="{size: 42 AWG, thermal_class: 20 degC}"), "wire.thermal_class",
+         "not a plausible thermal class"),
+        (coil_text(wire="{size: 42 AWG, thermal_clas: 155}"), "wire.thermal_clas",
+         "did you mean 'thermal_class'"),
     ],
 )
 def test_coil_errors_name_file_and_key(tmp_path, text, key, fragment):

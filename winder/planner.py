@@ -29,12 +29,13 @@ from winder.errors import InputError
 from winder.winding import DEFAULT_SCATTER_PACKING, Style, WindingModel, make_model
 from winder.wire import Wire
 
-__all__ = ["Coil", "Plan", "Style", "Target", "TARGET_KINDS", "NEAR_FULL", "PLAN_FORMAT",
-           "make_plan"]
+__all__ = ["Coil", "Drive", "Plan", "Style", "Target", "TARGET_KINDS", "NEAR_FULL",
+           "PLAN_FORMAT", "DEFAULT_AMBIENT_C", "make_plan"]
 
 TARGET_KINDS = ("turns", "resistance", "fill")
 NEAR_FULL = 0.95  # fraction of the usable height from which a plan warns
 PLAN_FORMAT = 1   # version of the to_dict() layout
+DEFAULT_AMBIENT_C = 25.0  # room temperature for drive figures, degC (common practice, no source)
 
 
 @dataclass(frozen=True)
@@ -60,6 +61,42 @@ class Target:
 
 
 @dataclass(frozen=True)
+class Drive:
+    """How the coil is driven, for the electromagnetic figures (:mod:`winder.em`).
+
+    Exactly one of ``voltage_v`` (volts, e.g. an amplifier's output) or ``current_a``
+    (amperes); ``distance_m`` is the field point on the axis beyond the top face (m,
+    optional); ``ambient_c`` the surrounding air, degC.
+    """
+
+    voltage_v: float | None = None
+    current_a: float | None = None
+    distance_m: float | None = None
+    ambient_c: float = DEFAULT_AMBIENT_C
+
+    def __post_init__(self) -> None:
+        if (self.voltage_v is None) == (self.current_a is None):
+            raise InputError("give a drive voltage or a drive current, not both or neither",
+                             key="drive")
+        for value, key in ((self.voltage_v, "drive.voltage"), (self.current_a, "drive.current")):
+            if value is not None and not (math.isfinite(value) and value > 0):
+                raise InputError(f"must be more than zero, got {value!r}", key=key)
+        if self.distance_m is not None and not (math.isfinite(self.distance_m)
+                                                and 0.0 <= self.distance_m <= 2.0):
+            raise InputError(f"distance beyond the face must be 0 to 2 m, got "
+                             f"{self.distance_m!r} m", key="drive.distance")
+        if not (math.isfinite(self.ambient_c) and -60.0 <= self.ambient_c <= 200.0):
+            raise InputError(f"ambient {self.ambient_c!r} degC is not plausible (-60 to 200 C)",
+                             key="drive.ambient")
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON form (SI names as the keys say)."""
+        return {"voltage_v": self.voltage_v, "current_a": self.current_a,
+                "distance_mm": None if self.distance_m is None else self.distance_m * 1e3,
+                "ambient_c": self.ambient_c}
+
+
+@dataclass(frozen=True)
 class Coil:
     """A coil to plan: bobbin, wire, target and winding style; ``source`` is its file, if any."""
 
@@ -69,6 +106,7 @@ class Coil:
     target: Target
     style: Style = field(default_factory=Style)
     source: str | None = None
+    drive: Drive | None = None  # optional drive for the electromagnetic figures
 
 
 @dataclass
@@ -132,7 +170,7 @@ class Plan:
                      "material": w.material.name, "bare_mm": w.bare_m * 1e3,
                      "bare_tol_mm": w.bare_tol_m * 1e3, "od_mm": w.od_m * 1e3,
                      "od_max_mm": w.od_max_m * 1e3, "od_source": w.od_source,
-                     "ohm_per_m": w.ohm_per_m()},
+                     "ohm_per_m": w.ohm_per_m(), "thermal_class_c": w.thermal_class_c},
             "bobbin": {"name": b.name, "core": core,
                        "window_width_mm": b.window_width_m * 1e3,
                        "window_height_mm": b.window_height_m * 1e3,

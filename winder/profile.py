@@ -7,15 +7,18 @@ Bobbin (``profiles/bobbins/NAME.yaml``)::
     window: {width: 6 mm, height: 3 mm}
     clearance: {ends: 0 mm, top: 0.3 mm}   # optional, default 0
     reference_inductance: {inductance: 1.2 H, turns: 5000}   # optional, measured on it
+                       # (an earlier coil on this bobbin and core; scaled by turns squared)
 
 Coil (``profiles/coils/NAME.yaml``)::
 
     name: ...
     bobbin: ../bobbins/NAME.yaml   # relative to this file, a shipped bobbin's name, or a mapping
-    wire: {size: 42 AWG, insulation: heavy}   # optional od (measured), material;
+    wire: {size: 42 AWG, insulation: heavy}   # optional od (measured), material,
+                                              # thermal_class (155 or '155 degC');
                                               # or the shorthand: wire: 42 AWG heavy
     target: {resistance: 6.2 kohm}            # or {turns: 8000} or {fill: true}; exactly one
     style: {kind: scatter, packing: 0.8}      # optional; kind layer|orthocyclic|scatter
+    drive: {voltage: 2 V, distance: 3 mm, ambient: 25 degC}   # optional; or current: 0.5 A
 
 Every quantity is a string with units. Unknown keys are refused with a
 did-you-mean; every error is one line naming the file and the key. YAML is read
@@ -32,9 +35,9 @@ from typing import Any
 
 from winder.bobbin import Bobbin, RectCore, RoundCore
 from winder.errors import InputError
-from winder.planner import Coil, Style, Target
-from winder.units import parse, parse_length
-from winder.wire import make_wire
+from winder.planner import DEFAULT_AMBIENT_C, Coil, Drive, Style, Target
+from winder.units import parse, parse_length, parse_temperature
+from winder.wire import THERMAL_CLASSES_C, make_wire
 
 MAX_PROFILE_BYTES = 64 * 1024
 MAX_DIM_M = 2.0  # no bobbin dimension over 2 m
@@ -45,8 +48,9 @@ CORE_KEYS = {"round": {"shape", "diameter"}, "rect": {"shape", "width", "length"
 WINDOW_KEYS = {"width", "height"}
 CLEARANCE_KEYS = {"ends", "top"}
 REFERENCE_KEYS = {"inductance", "turns"}
-COIL_KEYS = {"name", "notes", "bobbin", "wire", "target", "style"}
-WIRE_KEYS = {"size", "insulation", "od", "material"}
+COIL_KEYS = {"name", "notes", "bobbin", "wire", "target", "style", "drive"}
+WIRE_KEYS = {"size", "insulation", "od", "material", "thermal_class"}
+DRIVE_KEYS = {"voltage", "current", "distance", "ambient"}
 TARGET_KEYS = {"turns", "resistance", "fill"}
 STYLE_KEYS = {"kind", "packing", "pitch_range", "seed", "taper"}
 
@@ -240,11 +244,88 @@ def _wire(data: Any, where: str) -> Any:
     if w.get("od") is not None:
         od = parse_length(w["od"], where=where, key="wire.od", maximum=0.02)
     material = w.get("material", "copper")
+    thermal = None
+    if w.get("thermal_class") is not None:
+        thermal = parse_thermal_class(w["thermal_class"], where=where, key="wire.thermal_class")
     try:
-        return make_wire(size, ins, od_m=od, material=material)
+        return make_wire(size, ins, od_m=od, material=material, thermal_class_c=thermal)
     except InputError as err:
         raise InputError(err.message, where=where,
                          key=_join("wire", err.key) if err.key else "wire") from None
+
+
+def parse_thermal_class(value: Any, *, where: str | None = None,
+                        key: str | None = None) -> float:
+    """An insulation thermal class, degC: a class number (``155``, ``'class 155'``) or a
+    temperature with its unit (``'155 degC'``)."""
+    text = value
+    if isinstance(value, str):
+        text = value.strip()
+        named = text.lower().startswith("class")
+        if named:
+            text = text[5:].strip()
+        try:
+            text = int(text)
+        except ValueError:
+            if named:
+                raise InputError(f"{value!r} is not a thermal class; use one of "
+                                 f"{', '.join(map(str, THERMAL_CLASSES_C))}", where=where,
+                                 key=key) from None
+    if isinstance(text, bool):
+        raise InputError("must be a thermal class such as 155 or '155 degC'", where=where,
+                         key=key)
+    if isinstance(text, (int, float)):
+        if text not in THERMAL_CLASSES_C:
+            raise InputError(f"{value!r} is not a thermal class; use one of "
+                             f"{', '.join(map(str, THERMAL_CLASSES_C))} or a temperature "
+                             "such as '150 degC'", where=where, key=key)
+        return float(text)
+    celsius = parse_temperature(text, where=where, key=key)
+    if not 90.0 <= celsius <= 300.0:
+        raise InputError(f"{value!r} is not a plausible thermal class (90 to 300 C)",
+                         where=where, key=key)
+    return celsius
+
+
+def parse_drive(value: Any, *, where: str | None = None,
+                key: str | None = None) -> tuple[float | None, float | None]:
+    """A drive as a voltage ('2 V') or a current ('0.5 A'): (volts, None) or (None, amps)."""
+    try:
+        return parse(value, "voltage", where=where, key=key, maximum=1e4), None
+    except InputError as err:
+        if " is not a voltage " not in err.message:
+            raise
+    try:
+        return None, parse(value, "current", where=where, key=key, maximum=1e3)
+    except InputError as err:
+        if " is not a current " not in err.message:
+            raise
+    raise InputError(f"{value!r} is neither a voltage nor a current; write e.g. '2 V' or "
+                     "'0.5 A'", where=where, key=key)
+
+
+def drive_from_mapping(data: Any, where: str, prefix: str = "drive") -> Drive:
+    """Validate a coil's ``drive`` mapping into a :class:`~winder.planner.Drive`."""
+    d = _mapping(data, where, prefix, DRIVE_KEYS)
+    if ("voltage" in d) == ("current" in d):
+        raise InputError("give exactly one of voltage or current", where=where, key=prefix)
+    volts = amps = distance = None
+    if "voltage" in d:
+        volts = parse(d["voltage"], "voltage", where=where, key=_join(prefix, "voltage"),
+                      maximum=1e4)
+    else:
+        amps = parse(d["current"], "current", where=where, key=_join(prefix, "current"),
+                     maximum=1e3)
+    if d.get("distance") is not None:
+        distance = parse_length(d["distance"], where=where, key=_join(prefix, "distance"),
+                                allow_zero=True, maximum=MAX_DIM_M)
+    ambient = DEFAULT_AMBIENT_C
+    if d.get("ambient") is not None:
+        ambient = parse_temperature(d["ambient"], where=where, key=_join(prefix, "ambient"))
+    try:
+        return Drive(voltage_v=volts, current_a=amps, distance_m=distance, ambient_c=ambient)
+    except InputError as err:
+        raise InputError(err.message, where=where, key=err.key) from None
 
 
 def _target(data: Any, where: str) -> Target:
@@ -300,9 +381,10 @@ def coil_from_mapping(data: Any, where: str, base: Path) -> Coil:
     name = _text(d, "name", where, base.stem)
     _notes(d, where, "notes")
     bobbin = _resolve_bobbin(d["bobbin"], base, where)
+    drive = drive_from_mapping(d["drive"], where) if d.get("drive") is not None else None
     return Coil(name=name, bobbin=bobbin, wire=_wire(d["wire"], where),
                 target=_target(d["target"], where), style=_style(d.get("style"), where),
-                source=where)
+                source=where, drive=drive)
 
 
 def load_coil(path: str | Path) -> Coil:

@@ -110,6 +110,24 @@ METRIC_INSULATIONS = ("grade 1", "grade 2", "grade 3")
 _AWG_TO_GRADE = {"single": 0, "heavy": 1, "triple": 2}
 NOMINAL_FRACTION = 0.8  # nominal increase / max increase where the minimum is not tabulated
 
+# Thermal classes of electrical insulation, degC (IEC 60085 class designations, from
+# memory); magnet wire is sold by class (IEC 60317 parts, NEMA MW 1000 by temperature index).
+THERMAL_CLASSES_C = (105, 120, 130, 155, 180, 200, 220, 240)
+# Assumed where a wire states none: 130 C, the lowest class common for modern solderable
+# magnet wire, so a coil is flagged early rather than late (common practice, no source).
+# Older plain enamel and vinyl-acetal wire may be 105 C: state it in the profile.
+DEFAULT_THERMAL_CLASS_C = 130.0
+
+
+def check_thermal_class_c(value: float) -> float:
+    """Validate an insulation thermal class temperature in degC (90 .. 300 C)."""
+    v = float(value)
+    if not (math.isfinite(v) and 90.0 <= v <= 300.0):
+        raise InputError(f"thermal class {value!r} degC is not plausible (the classes run "
+                         f"{THERMAL_CLASSES_C[0]} to {THERMAL_CLASSES_C[-1]} C)",
+                         key="thermal_class")
+    return v
+
 
 def awg_diameter_m(n: int) -> float:
     """Bare diameter (m) of AWG ``n`` by the ASTM B258 formula."""
@@ -171,6 +189,13 @@ class Wire:
     od_source: str = ""  # where od_m comes from
     series: str = "awg"  # "awg" | "metric" | "custom"
     edge_of_catalog: bool = False  # thickest or thinnest size of its series
+    thermal_class_c: float | None = None  # insulation thermal class, degC (None: not stated)
+
+    @property
+    def thermal_class_or_default_c(self) -> float:
+        """The stated thermal class, degC, else :data:`DEFAULT_THERMAL_CLASS_C`."""
+        return (DEFAULT_THERMAL_CLASS_C if self.thermal_class_c is None
+                else self.thermal_class_c)
 
     @property
     def area_m2(self) -> float:
@@ -218,14 +243,18 @@ def _norm_insulation(text: str | None, series: str) -> str:
 
 
 def make_wire(size: str, insulation: str | None = None, od_m: float | None = None,
-              material: str = "copper") -> Wire:
+              material: str = "copper", thermal_class_c: float | None = None) -> Wire:
     """Look up a wire: ``size`` is '42 AWG' or a metric diameter such as '0.063 mm'.
 
     ``insulation`` defaults to 'heavy' (AWG) or 'grade 2' (metric); ``od_m`` is a
     measured overall diameter in metres and overrides the catalog value. A metric
     diameter that is not a series size is accepted as a custom size (OD by the
-    approximation). Raises :class:`InputError` for unknown sizes or insulations.
+    approximation). ``thermal_class_c`` is the insulation's thermal class in degC
+    (None: not stated; :data:`DEFAULT_THERMAL_CLASS_C` is assumed where a figure needs
+    one). Raises :class:`InputError` for unknown sizes or insulations.
     """
+    if thermal_class_c is not None:
+        thermal_class_c = check_thermal_class_c(thermal_class_c)
     mat = MATERIALS.get(str(material).lower())
     if mat is None:
         raise InputError(f"unknown conductor material {material!r}; use copper or aluminium",
@@ -287,7 +316,7 @@ def make_wire(size: str, insulation: str | None = None, od_m: float | None = Non
         od_max = max(od_max, od_m)
     return Wire(name=f"{size_name} {ins}", size_name=size_name, bare_m=d, bare_tol_m=tol,
                 od_m=nominal, od_max_m=od_max, insulation=ins, material=mat, od_source=src,
-                series=series, edge_of_catalog=bool(edge))
+                series=series, edge_of_catalog=bool(edge), thermal_class_c=thermal_class_c)
 
 
 def _fmt_mm(d_m: float) -> str:

@@ -40,6 +40,15 @@ def register(sub: Any) -> None:
     p.add_argument("--temp", default="20 degC", metavar="T",
                    help="temperature for the hot resistance, e.g. '25degC' (default 20 degC)")
     p.add_argument("--force", action="store_true", help="plan an over-full coil anyway")
+    p.add_argument("--drive", metavar="V_OR_A", help="drive the coil: a voltage such as '2 V' "
+                   "or a current such as '0.5 A' (current, power, heating; overrides the "
+                   "profile's drive)")
+    p.add_argument("--distance", metavar="LENGTH", help="field point on the axis beyond the "
+                   "top face, e.g. '3 mm'")
+    p.add_argument("--ambient", metavar="T", help="ambient air for the drive figures "
+                   "(default the profile's, else 25 degC)")
+    p.add_argument("--thermal-class", metavar="CLASS", help="insulation thermal class, e.g. "
+                   "155 or '155 degC' (default the wire's, else 130 C assumed)")
     p.add_argument("--json", action="store_true", help="machine-readable output")
     p.set_defaults(func=cmd_plan)
 
@@ -59,8 +68,13 @@ def register(sub: Any) -> None:
                    help="bobbin profile (or a coil profile: its bobbin and style are used)")
     g.add_argument("--resistance", metavar="R", help="target resistance at 20 C (with "
                    "--max-turns: the highest acceptable full resistance)")
-    g.add_argument("--drive", default="1 V", metavar="V",
-                   help="drive voltage for ampere-turns (default 1 V)")
+    g.add_argument("--drive", default="1 V", metavar="V_OR_A",
+                   help="drive voltage ('2 V') or current ('0.5 A') for ampere-turns, power, "
+                        "heating and field (default 1 V)")
+    g.add_argument("--distance", default="0 mm", metavar="LENGTH",
+                   help="field point on the axis beyond the top face (default 0 mm: on it)")
+    g.add_argument("--ambient", default="25 degC", metavar="T",
+                   help="ambient air for the steady heating (default 25 degC)")
     g.add_argument("--max-turns", action="store_true",
                    help="rank for sensing coils: most turns when full")
     g.add_argument("--series", choices=("awg", "metric"), default="awg")
@@ -188,16 +202,139 @@ def cmd_plan(args: argparse.Namespace) -> int:
             coil = dataclasses.replace(coil, style=_style(args.style, args.packing, coil.style))
     else:
         coil = _adhoc_coil(args)
+    coil, distance = _with_cli_drive(coil, args)
     plan = make_plan(coil, temp_c=temp, force=args.force)
+    figures = plan_figures(plan, distance)
     if args.json:
-        _emit_json(plan.to_dict())
+        _emit_json({**plan.to_dict(), **figures})
     else:
-        print(format_plan(plan))
+        print(format_plan(plan, figures))
     return 0
 
 
-def format_plan(plan: Any) -> str:
-    """The human plan: an aligned two-column table with units."""
+def _with_cli_drive(coil: Any, args: argparse.Namespace) -> tuple[Any, float | None]:
+    """(coil, field point in m or None): the coil with --drive, --distance, --ambient and
+    --thermal-class applied over its profile's drive section and wire."""
+    import dataclasses
+
+    from winder.planner import DEFAULT_AMBIENT_C, Drive
+    from winder.profile import parse_drive, parse_thermal_class
+    from winder.units import parse_length, parse_temperature
+
+    if args.thermal_class is not None:
+        tc = parse_thermal_class(args.thermal_class, where="--thermal-class")
+        coil = dataclasses.replace(coil, wire=dataclasses.replace(coil.wire, thermal_class_c=tc))
+    base = coil.drive
+    if args.drive is None and args.distance is None and args.ambient is None:
+        return coil, None if base is None else base.distance_m
+    volts, amps = ((base.voltage_v, base.current_a) if base is not None else (None, None))
+    if args.drive is not None:
+        volts, amps = parse_drive(args.drive, where="--drive")
+    distance = base.distance_m if base is not None else None
+    if args.distance is not None:
+        distance = parse_length(args.distance, where="--distance", allow_zero=True, maximum=2.0)
+    ambient = base.ambient_c if base is not None else DEFAULT_AMBIENT_C
+    if args.ambient is not None:
+        ambient = parse_temperature(args.ambient, where="--ambient")
+    if volts is None and amps is None:
+        if args.ambient is not None:
+            raise InputError("--ambient needs a drive (--drive '2 V' or a profile drive)",
+                             where="--ambient")
+        # a field point without a drive: field per ampere only
+        return coil, distance
+    try:
+        drive = Drive(voltage_v=volts, current_a=amps, distance_m=distance, ambient_c=ambient)
+    except InputError as err:
+        where = {"drive.distance": "--distance", "drive.ambient": "--ambient"}.get(
+            err.key or "", "--drive")
+        raise InputError(err.message, where=where) from None
+    return dataclasses.replace(coil, drive=drive), distance
+
+
+def plan_figures(plan: Any, distance_m: float | None = None) -> dict[str, Any]:
+    """The electromagnetic figures of a plan as JSON-ready keys (added to the plan's own).
+
+    Always ``inductance_uH``, ``inductance_source``, ``inductance_band_pct``,
+    ``air_core_inductance_uH``, ``center_field_mT_per_A``, ``thermal_class_c`` and
+    ``thermal_class_assumed``; with a field point ``field_at_point_mT_per_A`` and
+    ``distance_mm``; with a drive (``plan.coil.drive``) also ``drive``, ``current_a``,
+    ``ampere_turns``, ``power_w``, ``temp_rise_c``, ``coil_temp_c``,
+    ``resistance_hot_ohm``, ``current_density_a_mm2``, ``field_at_point_mT``,
+    ``drive_warnings`` and ``cautions`` (see :func:`winder.em.coil_em`).
+    """
+    from winder import em
+
+    drive = plan.coil.drive
+    if drive is not None and drive.distance_m is not None:
+        distance_m = drive.distance_m
+    wire = plan.wire
+    klass = wire.thermal_class_or_default_c
+    kw: dict[str, Any] = {"distance_m": distance_m, "class_temp_c": klass}
+    if drive is not None:
+        kw.update(drive_v=drive.voltage_v, drive_a=drive.current_a, ambient_c=drive.ambient_c)
+    out = em.em_figures(plan, **kw)
+    out["thermal_class_c"] = klass
+    out["thermal_class_assumed"] = wire.thermal_class_c is None
+    if distance_m is not None:
+        out["distance_mm"] = distance_m * 1e3
+    if drive is not None:
+        out["drive"] = drive.to_dict()
+        out["drive_warnings"] = out.pop("warnings")  # the plan's own "warnings" stay its own
+        out["cautions"] = list(em.CAUTIONS)
+    return out
+
+
+def figure_rows(f: dict[str, Any]) -> tuple[list[tuple[str, str]], list[str]]:
+    """The electromagnetic part of the human plan: (table rows, warning and caution
+    lines) from :func:`plan_figures`."""
+    from winder.units import format_si
+
+    if f["inductance_source"] == "reference":
+        ind = (f"{format_si(f['inductance_uH'] * 1e-6, 'H')}  (scaled by turns squared from "
+               f"the bobbin's reference; air core would be "
+               f"{format_si(f['air_core_inductance_uH'] * 1e-6, 'H')})")
+    else:
+        lo, hi = f["inductance_band_pct"]
+        ind = (f"{format_si(f['inductance_uH'] * 1e-6, 'H')}  ({f['inductance_source']}, "
+               f"{lo:+.1f} % to {hi:+.1f} %; a steel or magnet core raises it)")
+    rows = [("inductance", ind),
+            ("field at centre", f"{f['center_field_mT_per_A']:.4g} mT per A (on the axis)")]
+    at = None
+    if "distance_mm" in f:
+        at = f"{f['distance_mm']:g} mm beyond the face"
+        rows.append((f"field {at}", f"{f['field_at_point_mT_per_A']:.4g} mT per A (on the axis)"))
+    klass = (f"{f['thermal_class_c']:g} C" + (" (assumed; set wire.thermal_class)"
+                                            if f["thermal_class_assumed"] else ""))
+    lines: list[str] = []
+    if "drive" in f:
+        d = f["drive"]
+        given = (format_si(d["voltage_v"], "V") if d["voltage_v"] is not None
+                 else format_si(d["current_a"], "A"))
+
+        def opt(x: float | None, fmt: str, unit: str = "") -> str:
+            return "no steady state" if x is None else f"{x:{fmt}}{unit}"
+
+        rows += [
+            ("drive", f"{given}, ambient {d['ambient_c']:g} C (steady state, still air)"),
+            ("current", f"{format_si(f['current_a'], 'A')}  (hot resistance "
+                        f"{opt(f['resistance_hot_ohm'], '.4g', ' ohm')})"),
+            ("ampere-turns", f"{f['ampere_turns']:.4g}"),
+            ("power", opt(f["power_w"], ".4g", " W")),
+            ("current density", f"{f['current_density_a_mm2']:.3g} A/mm2"),
+            ("temperature rise", f"{opt(f['temp_rise_c'], '.1f', ' C')}  (coil "
+                                 f"{opt(f['coil_temp_c'], '.1f', ' C')}, insulation class "
+                                 f"{klass})"),
+        ]
+        if f.get("field_at_point_mT") is not None:
+            rows.append(("field there, driven", f"{f['field_at_point_mT']:.4g} mT"))
+        lines = [f"warning: {w}" for w in f["drive_warnings"]]
+        lines += [f"caution: {c}" for c in f["cautions"]]
+    return rows, lines
+
+
+def format_plan(plan: Any, figures: dict[str, Any] | None = None) -> str:
+    """The human plan: an aligned two-column table with units; with ``figures``
+    (:func:`plan_figures`) its electromagnetic rows, drive warnings and cautions."""
     from winder.units import format_si
 
     c, w, b = plan.coil, plan.wire, plan.bobbin
@@ -232,10 +369,14 @@ def format_plan(plan: Any) -> str:
     ]
     if plan.temp_c == 20.0:
         del rows[-2]
+    extra: list[str] = []
+    if figures is not None:
+        more, extra = figure_rows(figures)
+        rows += more
     width = max(len(k) for k, _ in rows)
     lines = [f"{k.ljust(width)}  {v}" for k, v in rows]
     lines += [f"warning: {msg}" for msg in plan.warnings]
-    return "\n".join(lines)
+    return "\n".join(lines + extra)
 
 
 # ---------------------------------------------------------------- wires
@@ -307,7 +448,8 @@ def _load_bobbin_or_coil(path: str) -> tuple[Any, Any]:
 def cmd_gauges(args: argparse.Namespace) -> int:
     """``winder gauges``: rank wire sizes for a bobbin."""
     from winder.gauges import rank_gauges
-    from winder.units import format_si, parse_resistance, parse_voltage
+    from winder.profile import parse_drive
+    from winder.units import format_si, parse_length, parse_resistance, parse_temperature
 
     bobbin, style = _load_bobbin_or_coil(args.bobbin)
     style = _style(args.style, args.packing, style)
@@ -316,10 +458,16 @@ def cmd_gauges(args: argparse.Namespace) -> int:
     if ohm is None and not args.max_turns:
         raise InputError("give the target resistance, e.g. --resistance '8 ohm' (or use "
                          "--max-turns)", where="--resistance")
-    volts = parse_voltage(args.drive, where="--drive", maximum=1e4)
+    volts, amps = parse_drive(args.drive, where="--drive")
+    distance = parse_length(args.distance, where="--distance", allow_zero=True, maximum=2.0)
+    ambient = parse_temperature(args.ambient, where="--ambient")
+    if not -60.0 <= ambient <= 200.0:
+        raise InputError(f"ambient {args.ambient!r} is not plausible (-60 to 200 C)",
+                         where="--ambient")
     try:
-        options = rank_gauges(bobbin, ohm, drive_v=volts, series=args.series,
-                              insulation=args.insulation, style=style,
+        options = rank_gauges(bobbin, ohm, drive_v=volts if volts is not None else 1.0,
+                              drive_a=amps, distance_m=distance, ambient_c=ambient,
+                              series=args.series, insulation=args.insulation, style=style,
                               max_turns=args.max_turns)
     except InputError as err:
         where = {"insulation": "--insulation", "material": "--material"}.get(err.key or "",
@@ -330,6 +478,7 @@ def cmd_gauges(args: argparse.Namespace) -> int:
     if args.json:
         mode = "max-turns" if args.max_turns else "resistance"
         _emit_json([{**o.to_dict(), "bobbin": bobbin.name, "target_ohm": ohm, "drive_v": volts,
+                     "drive_a": amps, "distance_mm": distance * 1e3, "ambient_c": ambient,
                      "mode": mode, "style": style.kind} for o in options])
         return 0
     best = next((i for i, o in enumerate(options) if o.recommended), None)
@@ -346,10 +495,16 @@ def cmd_gauges(args: argparse.Namespace) -> int:
             "yes" if o.fits else "no", str(o.full_turns),
             format_si(o.full_resistance_ohm, "ohm"),
             "-" if o.ampere_turns is None else f"{o.ampere_turns:.4g}",
+            "runaway" if o.power_w is None else f"{o.power_w:.3g}",
+            "runaway" if o.temp_rise_c is None else f"{o.temp_rise_c:.1f}",
+            "-" if o.field_at_point_mT is None else f"{o.field_at_point_mT:.3g}",
         ])
-    at_head = f"A-turns @ {format_si(volts, 'V')}"
+    given = format_si(volts, "V") if volts is not None else format_si(amps or 0.0, "A")
     print(_table(rows, ["", "wire", "OD mm", "turns", "fill", "fits", "full turns",
-                        "full R", at_head], {2, 3, 4, 6, 7, 8}))
+                        "full R", f"A-turns @ {given}", "power W", "rise C",
+                        f"B mT @ {distance * 1e3:g} mm"], {2, 3, 4, 6, 7, 8, 9, 10, 11}))
+    print(f"power, rise and field: steady hot state at {given} in {ambient:g} C still air; "
+          f"field on the axis {distance * 1e3:g} mm beyond the top face")
     if best is None:
         print("no size qualifies: the target length of every size overfills the bobbin"
               if not args.max_turns else "no size keeps its full resistance under the limit")
