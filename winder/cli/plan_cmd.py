@@ -303,7 +303,7 @@ def figure_rows(f: dict[str, Any]) -> tuple[list[tuple[str, str]], list[str]]:
     if "distance_mm" in f:
         at = f"{f['distance_mm']:g} mm beyond the face"
         rows.append((f"field {at}", f"{f['field_at_point_mT_per_A']:.4g} mT per A (on the axis)"))
-    klass = (f"{f['thermal_class_c']:g} C" + (" (assumed; set wire.thermal_class)"
+    klass = (f"{f['thermal_class_c']:g} C" + (", assumed: set wire.thermal_class"
                                             if f["thermal_class_assumed"] else ""))
     lines: list[str] = []
     if "drive" in f:
