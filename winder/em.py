@@ -18,10 +18,10 @@ Inductance (air core)
     Wheeler claims about 1 % when the three denominator terms are comparable. Measured
     here against Maxwell's coaxial-loop mutual inductance summed over a filament grid
     of square cells (:func:`filament_inductance_h` at 8 and 16 cells across the shorter
-    side, extrapolated with its 1/n² convergence, L16 + (L16 - L8) / 3; the
-    extrapolation moves the figure by at most 0.53 % and agrees with 32 cells to
-    0.003 %), over 0.1 <= b/a <= 10, 0.05 <= c/a <= 1.9: a log grid of 11770
-    proportions plus 6751 on the band edges s = 1.5, 2, 3, 5 (the error grows with the
+    side, extrapolated with its 1/n² convergence, L16 + (L16 - L8) / 3; 8 and 16 cells
+    differ by at most 0.53 %, and the extrapolation from 16 and 32 cells agrees to
+    0.003 % at the s = 2 corner), over 0.1 <= b/a <= 10, 0.05 <= c/a <= 1.9: a log
+    grid of 11770 proportions plus 6751 on the band edges s = 1.5, 2, 3, 5 (the error grows with the
     spread, so each band's extremes sit on its edge; the worst low reading of every
     edge is at 9b = 6a, 10c = s 6a). tests/test_em.py re-checks 30 proportions and the
     edge corners with an independent scipy implementation. The error by the spread
