@@ -29,8 +29,8 @@ from winder.tui.feed import Batch, LogLine, Status, WindControl
 from winder.tui.progress import Figures, Reading, band_text, duration_text, figures, ohm_text
 from winder.tui.widgets import ChartView, FillBar, GuideTrack, SectionView
 
-REFRESH_HZ = 12.0
-READOUT_EVERY = 3       # refresh ticks between updates of the numeric read-outs (4 Hz)
+REFRESH_HZ = 10.0
+READOUT_EVERY = 3       # refresh ticks between updates of the numeric read-outs (about 3 Hz)
 
 LINK_TEXT = {
     "offline": ("○ offline", "#8a94a6"),
