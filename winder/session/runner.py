@@ -161,6 +161,7 @@ class Runner:
         self._finishing = False
         self._fresh_after = 0.0
         self._resync = False     # a pass went unacknowledged: the device queue is unknown
+        self._queue_unknown = False   # a HALT went unacknowledged
         self._queue_t = 0.0
         self._queued_guess = 0
         self._started_run = False
@@ -362,7 +363,12 @@ class Runner:
     # ---- winding ------------------------------------------------------------------------
     def _clear_device(self) -> None:
         """Stop with an empty queue and no latched faults (statuses older are ignored)."""
-        self._safe(self.link.stop)
+        stopped = self._safe(self.link.stop)
+        if not stopped and getattr(self.link, "connected", True):
+            stopped = self._safe(self.link.stop)    # once more on a noisy line
+        # an unacknowledged HALT leaves the device queue unknown: no new passes until a
+        # later HALT is acknowledged (queueing on top could wind them twice)
+        self._queue_unknown = not stopped
         clear = getattr(self.link, "clear", None)
         if clear is not None:
             self._safe(clear)
@@ -383,6 +389,10 @@ class Runner:
                 pass
 
     def _begin_run(self) -> None:
+        if self.motor and self._queue_unknown:
+            self._resync = True          # the next status halts again, then begins
+            self.waiting = False
+            return
         if self.motor:
             self._started_run = False
             self._plan_segments()
