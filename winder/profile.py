@@ -164,7 +164,7 @@ def bobbin_from_mapping(data: Any, where: str, prefix: str | None = None,
         raise InputError("expected a mapping such as {shape: round, diameter: 8 mm}",
                          where=where, key=ck)
     shape = core_d.get("shape")
-    if shape not in CORE_KEYS:
+    if not isinstance(shape, str) or shape not in CORE_KEYS:
         raise InputError(f"shape must be round or rect, got {shape!r}", where=where,
                          key=_join(ck, "shape"))
     _mapping(core_d, where, ck, CORE_KEYS[shape], CORE_KEYS[shape] - {"corner_radius"})
