@@ -105,9 +105,9 @@ def resistance_chart(width: int, height: int, *, turns_max: float,
     ``curve`` is (turns, ohm) of the prediction; ``band`` is (ohm_low, ohm_high)
     on the same turns; ``readings`` are measured (turns, ohm) points;
     ``now_turns`` draws the turn count now. ``width``/``height`` in cells, axes
-    included (at least 24 x 5).
+    included (at least 16 x 5).
     """
-    width = max(24, int(width))
+    width = max(16, int(width))
     height = max(5, int(height))
     plot_w = width - Y_LABEL_WIDTH - 1
     plot_h = height - 2                   # x axis row and label row below

@@ -229,8 +229,6 @@ class RunnerControl:
             self.runner.splice(text)
         else:
             self.runner.note(text)
-        if not self.started:
-            self.feed.log(f"{kind} noted; it is journaled when winding starts", "info")
 
     def accept_stop(self) -> None:
         self.runner.accept_stop()

@@ -22,6 +22,14 @@ from winder.tui.progress import Estimate, Reading, band_ratios, predicted_ohm
 from winder.tui.section import window_section
 
 
+def fit(text: Text, width: int, height: int) -> Text:
+    """``text`` cropped to ``width`` x ``height`` cells (a drawing never wraps)."""
+    lines = text.split("\n", allow_blank=True)[:max(height, 0)]
+    for line in lines:
+        line.truncate(max(width, 0))
+    return Text("\n").join(lines)
+
+
 class SectionView(Widget):
     """The bobbin window in cross-section with the planned (and wound) build."""
 
@@ -59,7 +67,8 @@ class SectionView(Widget):
         if self.bobbin is None:
             return Text("no bobbin")
         w, h = self.size
-        return window_section(self.bobbin, self.planned_m, self.wound_m, width=w, height=h)
+        return fit(window_section(self.bobbin, self.planned_m, self.wound_m, width=w,
+                                  height=h), w, h)
 
 
 class ChartView(Widget):
@@ -120,8 +129,9 @@ class ChartView(Widget):
         w, h = self.size
         s = self.scale
         pts = [(r.turns, r.ohm) for r in self.readings]
-        return resistance_chart(w, h, turns_max=float(turns[-1]), curve=(turns, ohm * s),
-                                band=(lo * s, hi * s), readings=pts, now_turns=self.now_turns)
+        return fit(resistance_chart(w, h, turns_max=float(turns[-1]), curve=(turns, ohm * s),
+                                    band=(lo * s, hi * s), readings=pts,
+                                    now_turns=self.now_turns), w, h)
 
 
 class GuideTrack(Widget):
