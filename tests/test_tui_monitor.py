@@ -6,6 +6,8 @@ check what the screen shows and which actions it asks for.
 
 from __future__ import annotations
 
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from textual.widgets import Digits, Input, RichLog
 
 from tests.tui_standins import (
@@ -16,6 +18,7 @@ from tests.tui_standins import (
     settle,
     type_text,
 )
+from winder.errors import InputError
 from winder.planner import Target
 from winder.tui.app import WinderApp
 from winder.tui.dialogs import CautionScreen, EntryDialog, ReadingDialog, check_reading
@@ -262,3 +265,18 @@ async def test_a_failing_action_is_logged_not_raised():
         await pilot.pause()
         assert "cannot pause" in screen_text(app)
         assert isinstance(app.screen, MonitorScreen)
+
+
+@settings(deadline=None, max_examples=200)
+@given(st.text(max_size=40), st.text(max_size=20),
+       st.one_of(st.none(), st.floats(0.01, 1e7)))
+def test_typed_readings_are_accepted_or_refused_never_crash(ohm, temp, expected):
+    try:
+        entry, caution = check_reading(ohm, temp, expected)
+    except InputError as err:
+        assert str(err)                         # a one-line reason
+        assert "\n" not in str(err)
+    else:
+        assert 0 < entry.ohm <= 100e6
+        assert -10 <= entry.temp_c <= 80
+        assert caution is None or "expected" in caution
