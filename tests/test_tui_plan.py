@@ -41,6 +41,13 @@ async def test_plan_view_shows_the_planners_figures():
         for size in ("40 AWG", "41 AWG", "43 AWG", "44 AWG"):
             assert size in text
         assert "▶ 42 AWG" in text
+        # The star is the gauge chooser's own pick for this bobbin and target.
+        from winder.gauges import rank_gauges
+
+        best = [o.size for o in rank_gauges(coil.bobbin, coil.target.value,
+                                            insulation="heavy", style=coil.style)
+                if o.recommended]
+        assert len(best) == 1 and f"★{best[0]}" in text
 
 
 async def test_style_key_replans_at_once():

@@ -46,6 +46,7 @@ class GaugeRow:
     length_m: float | None = None
     current: bool = False
     error: str = ""
+    recommended: bool = False     # the gauge chooser's pick for this bobbin and target
 
 
 @dataclass
@@ -162,6 +163,9 @@ class PlanScreen(Screen[None]):
         self.schedule: Any = None
         self.message = ""
         self.compare_rows: list[GaugeRow] = []
+        self.recommended: str | None = None
+        self._recommend_key: tuple | None = None
+        self._recommended: str | None = None
 
     def compose(self) -> ComposeResult:
         with Horizontal(id="plan-top"):
@@ -230,9 +234,34 @@ class PlanScreen(Screen[None]):
                                          else str(err)))
                     continue
             rows.append(GaugeRow(p.wire.size_name, p.turns, p.layers, p.fill, p.resistance_ohm,
-                                 p.wire_length_m, current=size == wire.size_name))
+                                 p.wire_length_m, current=size == wire.size_name,
+                                 recommended=size == self.recommended))
         self.compare_rows = rows
         return rows
+
+    def recommend(self) -> str | None:
+        """The gauge chooser's pick (:func:`winder.gauges.rank_gauges`) for a resistance
+        target: of the sizes in the wire's series whose target length fits, the one that
+        fills the bobbin most. None for other targets or custom sizes."""
+        wire, target = self.plan.wire, self.coil.target
+        series = getattr(wire, "series", None)
+        if target.kind != "resistance" or series not in ("awg", "metric"):
+            return None
+        key = (self.plan.bobbin, wire.insulation, wire.material.name, self.coil.style,
+               float(target.value), series)
+        if key != self._recommend_key:
+            from winder.gauges import rank_gauges
+
+            try:
+                options = rank_gauges(self.plan.bobbin, float(target.value), series=series,
+                                      insulation=wire.insulation, style=self.coil.style,
+                                      material=wire.material.name)
+            except WinderError:
+                options = []
+            best = [o for o in options if o.recommended]
+            self._recommend_key = key
+            self._recommended = best[0].size if best else None
+        return self._recommended
 
     # ----- drawing
     def _show_message(self) -> None:
@@ -305,6 +334,7 @@ class PlanScreen(Screen[None]):
         self._show_gauges()
 
     def _show_gauges(self) -> None:
+        self.recommended = self.recommend()
         t = Table(box=None, padding=(0, 1), header_style="#8a94a6", expand=True)
         for name, just in (("wire", "left"), ("turns", "right"), ("layers", "right"),
                            ("fill", "right"), ("resistance", "right"), ("length", "right")):
@@ -318,17 +348,22 @@ class PlanScreen(Screen[None]):
             fill_style = "#ff5f5f" if fill > 1 else "#d9a440" if fill >= 0.9 else ""
             layers = (f"{r.layers}" if isinstance(r.layers, int)
                       else f"{float(r.layers or 0):.0f}")
-            t.add_row(Text(("▶ " if r.current else "  ") + r.wire, style),
+            mark = ("▶" if r.current else " ") + ("★" if r.recommended else " ")
+            t.add_row(Text(f"{mark}{r.wire}", style),
                       f"{r.turns:,}".replace(",", " "), layers,
                       Text(f"{fill * 100:.0f} %", fill_style),
                       ohm_text(r.resistance_ohm or 0.0, 3),
                       f"{r.length_m or 0:,.0f} m".replace(",", " "), style=style)
         self.query_one("#gauges", Static).update(t)
         over = [r for r in self.compare_rows if r.fill is not None and r.fill > 1]
-        note = ("  over 100 % does not fit the usable height" if over else "")
+        note = ("; over 100 % does not fit the usable height" if over else "")
+        pick = ""
+        if self.recommended:
+            pick = (f"\n★ {self.recommended}: the most fill at the target resistance that "
+                    "still fits (the gauge chooser's pick; see winder gauges)")
         self.query_one("#gauges-note", Static).update(Text(
             f"same target, same insulation ({self.plan.wire.insulation}), "
-            f"{self.coil.style.kind} winding{note}", "#8a94a6"))
+            f"{self.coil.style.kind} winding{note}{pick}", "#8a94a6"))
 
     # ----- actions
     def action_target(self) -> None:
