@@ -225,3 +225,33 @@ async def test_hand_winding_needs_no_caution_and_guides_the_wire(tmp_path):
         sim.close()
     kinds = [e["kind"] for e in journal(setup)]
     assert "started" in kinds
+
+
+async def test_a_whole_coil_winds_to_done_and_takes_a_final_reading(tmp_path):
+    app, setup, sim = demo_app(coil="driver-8ohm", speedup=SPEEDUP, workdir=tmp_path)
+    try:
+        async with app.run_test(size=SIZE) as pilot:
+            await pilot.pause()
+            planned = app.screen.plan.turns
+            await pilot.press("enter")
+            await until(pilot, lambda: isinstance(app.screen, CautionScreen), what="caution")
+            await pilot.press("y")
+            await until(pilot, lambda: "DONE" in screen_text(app), what="the coil finished")
+            assert count_on_screen(app) == planned
+            assert not sim.truth()["motor_running"]
+            await until(pilot, lambda: "log the reading" in screen_text(app), what="the hint")
+            await pilot.press("r")
+            await until(pilot, lambda: isinstance(app.screen, ReadingDialog), what="dialog")
+            app.screen.query_one("#reading-ohm", Input).value = "8.05 ohm"
+            app.screen.submit()
+            await until(pilot, lambda: any(e["kind"] == "reading" and e.get("source") == "user"
+                                           for e in journal(setup)), what="the final reading")
+            await pilot.press("q")
+            await pilot.pause()
+    finally:
+        app.close_control("test end")
+        sim.close()
+    kinds = [e["kind"] for e in journal(setup)]
+    assert "finished" in kinds
+    final = [e for e in journal(setup) if e["kind"] == "reading" and e.get("source") == "user"]
+    assert final[-1]["ohm"] == 8.05 and final[-1]["turns"] == planned

@@ -178,6 +178,9 @@ class MonitorScreen(Screen[None]):
         if self._readouts_due:
             self._readout_tick = self._ticks
         self._readouts_pending = not self._readouts_due
+        if st.state == "done" and prev.state != "done":
+            self.control.feed.log("the coil is wound: measure it and log the reading (r), "
+                                  "then q", "info")
         self.status = st
         self.frames += 1
         f = figures(self.plan, batch.status.turns, batch.status.rpm,

@@ -93,9 +93,13 @@ def _open_link(port: str, events: queue.Queue) -> Any:
 
 
 class WindSetup:
-    """``start_wind(coil, plan, schedule)`` for the plan view: a new session on ``port``."""
+    """``start_wind(coil, plan, schedule)`` for the plan view: a new session on ``port``.
 
-    def __init__(self, port: str, *, machine_file: str | None = None,
+    ``port`` is a port name or URL, or a callable given the plan that returns one
+    (the demo starts its simulated winder for the plan actually wound).
+    """
+
+    def __init__(self, port: str | Callable[[Any], str], *, machine_file: str | None = None,
                  session_dir: str | Path | None = None, root: Path | None = None,
                  stop_at_resistance: bool = False, auto_continue: bool = False,
                  ambient_c: float | None = None,
@@ -130,7 +134,8 @@ class WindSetup:
         if plan.fill > 1.0:
             raise InputError("the plan does not fit the usable height", key="target")
         events: queue.Queue = queue.Queue(maxsize=10000)
-        link = _open_link(self.port, events)
+        port = self.port(plan) if callable(self.port) else self.port
+        link = _open_link(port, events)
         try:
             info = link.info
             machine = machine_for(self.machine_file, info.capabilities, info.counts_per_rev)
