@@ -222,9 +222,12 @@ class MonitorScreen(Screen[None]):
         if digits.value != _thousands(f.turns):
             digits.update(_thousands(f.turns))
         pct = f.fraction * 100
+        moved = abs(f.planned_turns - float(self.plan.turns)) > 0.5
         self._set("#count-of", Text.assemble(
             ("of ", "#8a94a6"), (_thousands(f.planned_turns), "bold"),
-            (" planned  ", "#8a94a6"), (f"{pct:5.1f} %", "bold #5fd7af")), readout=True)
+            (" (stop moved from the plan's " + _thousands(self.plan.turns) + ")  " if moved
+             else " planned  ", "#8a94a6"),
+            (f"{pct:5.1f} %", "bold #5fd7af")), readout=True)
         bar = q("#count-bar", ProgressBar)
         total = max(f.planned_turns, 1.0)
         done = round(min(f.turns, f.planned_turns) / total * 500) / 500 * total  # bar steps
