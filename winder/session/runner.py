@@ -813,8 +813,12 @@ class Runner:
     def _act_pause(self, reason: str) -> None:
         if self.done or self.state.state != "running":
             return
-        if self.motor:
-            self._safe(self.link.pause)
+        if self.motor and not self._safe(self.link.pause) \
+                and getattr(self.link, "connected", True):
+            # HOLD unacknowledged on a noisy line: stop outright rather than leave the
+            # spindle turning under a session that says paused
+            if not self._safe(self.link.stop):
+                self._queue_unknown = True
         self._record("paused", turns=self.turns, reason=reason)
         self.waiting = True
         self._emit("paused", f"paused at {self.turns:g} turns ({reason})")
