@@ -289,3 +289,35 @@ def test_a_full_device_queue_is_retried_quietly_and_a_dry_queue_restarts(tmp_pat
     time.sleep(0.001)
     feed(r, status(35, rpm=0.0, state="idle", queued=0))   # ran dry before the top-up
     assert "queue_pass" in link.names() and link.names()[-1] == "go"
+
+
+def test_statuses_older_than_the_last_send_never_overfill_the_device_queue(tmp_path, prep):
+    # the device's queue holds queue_max passes (the hello); statuses that were on their
+    # way before the runner's last passes still show the old queue, so the runner counts
+    # what it sent since, and a FUL answer is never seen nor logged
+    r, link, sess, updates = new_runner(tmp_path, prep)
+    qmax = link.info.queue_max
+    device_queue: list = []
+    rejected = []
+
+    def queue_pass(*a):
+        from winder.link.errors import CommandRejected
+
+        if len(device_queue) >= qmax:
+            rejected.append(a)
+            raise CommandRejected("PASS", "FUL")
+        device_queue.append(a)
+        link.calls.append(("queue_pass", *a))
+
+    link.__dict__["queue_pass"] = queue_pass
+    before = status(0, queued=0)                     # sent before the first passes
+    r.start()
+    assert len(device_queue) == qmax - 1
+    for k in range(6):                               # a backlog of statuses from before
+        feed(r, Status(**{**before.__dict__, "count": k, "turns": float(k)}))
+    assert len(device_queue) <= qmax and not rejected
+    device_queue.pop(0)                              # the device ran one pass
+    time.sleep(0.001)
+    feed(r, status(20, queued=len(device_queue)))    # a status after the last send
+    assert len(device_queue) == qmax - 1 and not rejected
+    assert not [u for u in updates if u.kind == "warn"]
