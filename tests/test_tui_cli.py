@@ -47,3 +47,31 @@ def test_planning_does_not_import_the_ui(run_cli):
     r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                        env=cli_env(), cwd=ROOT, timeout=60)
     assert r.stdout.strip().splitlines()[-1] == "False False"
+
+
+def test_wind_and_resume_with_the_ui_pass_the_ambient_temperature(monkeypatch):
+    # without --headless the CLI hands over to winder.tui.wind; --ambient must go with it
+    from winder.cli import build_parser, session_cmd
+
+    got = {}
+
+    class FakeTui:
+        @staticmethod
+        def run_wind(coil, **kw):
+            got["wind"] = kw
+            return 0
+
+        @staticmethod
+        def run_resume(session, **kw):
+            got["resume"] = kw
+            return 0
+
+    monkeypatch.setattr(session_cmd, "_tui", lambda: FakeTui)
+    parser = build_parser()
+    coil = PROFILES / "coils" / "driver-8ohm.yaml"
+    args = parser.parse_args(["wind", str(coil), "--port", "/dev/null", "--ambient", "25 C"])
+    assert args.func(args) == 0
+    args = parser.parse_args(["resume", "some-session", "--ambient", "30 degC"])
+    assert args.func(args) == 0
+    assert got["wind"]["ambient_c"] == 25.0
+    assert got["resume"]["ambient_c"] == 30.0

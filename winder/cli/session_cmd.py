@@ -189,6 +189,7 @@ def cmd_wind(args: argparse.Namespace) -> int:
     from winder.session.runner import Runner, check_stop_at_resistance
     from winder.session.session import Session
 
+    ambient = _ambient(args)
     if not args.headless:
         tui = _tui()
         if tui is None:
@@ -197,8 +198,7 @@ def cmd_wind(args: argparse.Namespace) -> int:
         return tui.run_wind(args.coil, port=args.port, machine_file=args.machine,
                             session_dir=args.session,
                             stop_at_resistance=args.stop_at_resistance,
-                            auto_continue=args.auto_continue)
-    ambient = _ambient(args)
+                            auto_continue=args.auto_continue, ambient_c=ambient)
     _check_profiles(args.coil, args.machine)
     events: queue.Queue = queue.Queue(maxsize=10000)
     link = _open_link(args.port, events)
@@ -265,7 +265,7 @@ def cmd_resume(args: argparse.Namespace) -> int:
         return tui.run_resume(args.session, port=args.port, reading=reading,
                               accept_correction=args.accept_correction,
                               stop_at_resistance=args.stop_at_resistance,
-                              auto_continue=args.auto_continue)
+                              auto_continue=args.auto_continue, ambient_c=ambient)
     sess = Session.open(args.session, writable=True)
     link = None
     try:
