@@ -50,6 +50,8 @@ def coil_mapping(coil: Any) -> dict[str, Any]:
         wire["od"] = _mm(w.od_m)
     if w.material.name != "copper":
         wire["material"] = w.material.name
+    if w.thermal_class_c is not None:
+        wire["thermal_class"] = _thermal_class(w.thermal_class_c)
     t = coil.target
     target: dict[str, Any]
     if t.kind == "fill":
@@ -68,8 +70,28 @@ def coil_mapping(coil: Any) -> dict[str, Any]:
             style["taper"] = float(s.taper)
     if s.seed is not None:
         style["seed"] = int(s.seed)
-    return {"name": coil.name, "bobbin": bobbin, "wire": wire, "target": target,
-            "style": style}
+    out = {"name": coil.name, "bobbin": bobbin, "wire": wire, "target": target,
+           "style": style}
+    if coil.drive is not None:
+        out["drive"] = _drive_mapping(coil.drive)
+    return out
+
+
+def _thermal_class(celsius: float) -> int | str:
+    """A thermal class for a profile: the class number, or a temperature ('150 degC')."""
+    from winder.wire import THERMAL_CLASSES_C
+
+    return int(celsius) if celsius in THERMAL_CLASSES_C else f"{celsius:.9g} degC"
+
+
+def _drive_mapping(drive: Any) -> dict[str, Any]:
+    """A coil's drive (volts or amperes, distance m, ambient degC) as a profile mapping."""
+    d: dict[str, Any] = ({"voltage": f"{drive.voltage_v:.12g} V"} if drive.voltage_v is not None
+                         else {"current": f"{drive.current_a:.12g} A"})
+    if drive.distance_m is not None:
+        d["distance"] = f"{drive.distance_m * 1e3:.12g} mm"
+    d["ambient"] = f"{drive.ambient_c:.12g} degC"
+    return d
 
 
 def coil_yaml(coil: Any, note: str = "") -> str:
