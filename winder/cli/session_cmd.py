@@ -163,14 +163,6 @@ def cmd_history(args: argparse.Namespace) -> int:
 
 # ---- wind and resume ---------------------------------------------------------------------
 
-def _open_link(port: str, events):
-    from winder.link import WinderLink
-
-    link = WinderLink(port, events=events)
-    link.open()
-    return link
-
-
 def _tui():
     """The terminal UI's entry points (``run_wind``, ``run_resume``), or None."""
     import importlib.util
@@ -185,7 +177,7 @@ def _tui():
 def cmd_wind(args: argparse.Namespace) -> int:
     import queue
 
-    from winder.session.prepare import machine_for, prepare, started_fields
+    from winder.session.prepare import machine_for, open_link, prepare, started_fields
     from winder.session.runner import Runner, check_stop_at_resistance
     from winder.session.session import Session
 
@@ -201,7 +193,7 @@ def cmd_wind(args: argparse.Namespace) -> int:
                             auto_continue=args.auto_continue, ambient_c=ambient)
     _check_profiles(args.coil, args.machine)
     events: queue.Queue = queue.Queue(maxsize=10000)
-    link = _open_link(args.port, events)
+    link = open_link(args.port, events)
     sess = None
     try:
         info = link.info
@@ -249,6 +241,7 @@ def cmd_resume(args: argparse.Namespace) -> int:
     import queue
 
     from winder.session.calibration import Reading
+    from winder.session.prepare import open_link, resume_port, resume_reading
     from winder.session.runner import Runner
     from winder.session.session import Session
 
@@ -270,13 +263,7 @@ def cmd_resume(args: argparse.Namespace) -> int:
     link = None
     try:
         st = sess.state
-        if st.state in ("finished", "aborted"):
-            raise InputError(f"session {sess.id} is already {st.state}; see `winder report "
-                             f"{sess.id}`", where="SESSION")
-        port = args.port or st.device.get("url")
-        if not port:
-            raise InputError("give --port (the session does not know its port)",
-                             where="--port")
+        port = resume_port(sess, args.port)
         sched = sess.schedule()
         schedule = machine = None
         if sched:
@@ -285,7 +272,7 @@ def cmd_resume(args: argparse.Namespace) -> int:
             schedule = Schedule.from_dict(sched)
             machine = schedule.machine
         events: queue.Queue = queue.Queue(maxsize=10000)
-        link = _open_link(port, events)
+        link = open_link(port, events)
         runner = Runner(sess, link, schedule=schedule, machine=machine,
                         stop_at_resistance=args.stop_at_resistance,
                         auto_continue=args.auto_continue, events=events,
@@ -294,13 +281,7 @@ def cmd_resume(args: argparse.Namespace) -> int:
               f"(journal state {sess.effective_state()})", flush=True)
         if sess.torn is not None:
             print(f"note: {sess.torn.describe()}", flush=True)
-        if reading is None and (link.info.boot_id or "") != (st.boot_id or "") \
-                and runner.can_measure:
-            ohm = runner.measure_now()
-            if ohm is not None:
-                reading = Reading(0.0, ohm, None, "device reading at resume")
-        if reading is not None:
-            reading = Reading(st.turns, reading.ohm, reading.temp_c, reading.note)
+        reading = resume_reading(runner, reading)
         if runner.motor:
             print(CAUTION, flush=True)
         rec = runner.resume(reading, accept_correction=args.accept_correction)

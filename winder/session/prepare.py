@@ -130,3 +130,46 @@ def load_frozen(session_dir: Path) -> tuple[Any | None, Any | None]:
     sd = read_json(Path(session_dir) / SCHEDULE_FILE)
     sched = Schedule.from_dict(sd) if sd else None
     return plan, sched
+
+
+# ---- reattaching (what `winder wind`/`resume`, headless or in the terminal UI, share) ----
+def open_link(port: str, events: Any) -> Any:
+    """A :class:`winder.link.WinderLink` on ``port``, opened (handshake done), delivering
+    its events into ``events`` (the runner's queue)."""
+    from winder.link import WinderLink
+
+    link = WinderLink(port, events=events)
+    link.open()
+    return link
+
+
+def resume_port(session: Any, port: str | None) -> str:
+    """The port to resume ``session`` on (``port``, else the one it used); a finished or
+    aborted session, or one that does not know its port, is a one-line InputError."""
+    st = session.state
+    if st.state in ("finished", "aborted"):
+        raise InputError(f"session {session.id} is already {st.state}; see `winder report "
+                         f"{session.id}`", where="SESSION")
+    port = port or st.device.get("url")
+    if not port:
+        raise InputError("give --port (the session does not know its port)", where="--port")
+    return port
+
+
+def resume_reading(runner: Any, reading: Any | None) -> Any | None:
+    """The reading to reconcile a resume with, at the journal's count (turns).
+
+    ``reading`` is the user's (ohm, degC); without one, a device that restarted
+    while the host was away and can measure is asked for one (spindle still).
+    """
+    from winder.session.calibration import Reading
+
+    sess = runner.session
+    if reading is None and (runner.link.info.boot_id or "") != (sess.state.boot_id or "") \
+            and runner.can_measure:
+        ohm = runner.measure_now()
+        if ohm is not None:
+            reading = Reading(0.0, ohm, None, "device reading at resume")
+    if reading is not None:
+        reading = Reading(sess.state.turns, reading.ohm, reading.temp_c, reading.note)
+    return reading

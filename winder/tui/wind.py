@@ -106,14 +106,6 @@ def _flange_mm(machine: Any) -> float:
     return float(getattr(tr, "start_flange_m", 0.0) or 0.0) * 1e3
 
 
-def _open_link(port: str, events: queue.Queue) -> Any:
-    from winder.link import WinderLink
-
-    link = WinderLink(port, events=events)
-    link.open()
-    return link
-
-
 class WindSetup:
     """``start_wind(coil, plan, schedule)`` for the plan view: a new session on ``port``.
 
@@ -149,7 +141,13 @@ class WindSetup:
 
     def __call__(self, coil: Any, plan: Any, schedule: Any) -> RunnerControl:
         from winder.schedule import build_schedule
-        from winder.session.prepare import Prepared, curve_for, machine_for, started_fields
+        from winder.session.prepare import (
+            Prepared,
+            curve_for,
+            machine_for,
+            open_link,
+            started_fields,
+        )
         from winder.session.runner import Runner, check_stop_at_resistance
         from winder.session.session import Session
 
@@ -157,7 +155,7 @@ class WindSetup:
             raise InputError("the plan does not fit the usable height", key="target")
         events: queue.Queue = queue.Queue(maxsize=10000)
         port = self.port(plan) if callable(self.port) else self.port
-        link = _open_link(port, events)
+        link = open_link(port, events)
         try:
             info = link.info
             machine = machine_for(self.machine_file, info.capabilities, info.counts_per_rev)
@@ -195,27 +193,21 @@ def resume_control(session_ref: str | Path, *, port: str | None = None,
                    stop_at_resistance: bool = False, auto_continue: bool = False,
                    ambient_c: float | None = None) -> tuple[RunnerControl, Any, Any]:
     """(control, plan, schedule) for resuming a session; the runner resumes on start()."""
-    from winder.session.prepare import load_frozen
+    from winder.session.prepare import load_frozen, open_link, resume_port, resume_reading
     from winder.session.runner import Runner
     from winder.session.session import Session
 
     sess = Session.open(session_ref, writable=True)
     link = None
     try:
-        st = sess.state
-        if st.state in ("finished", "aborted"):
-            raise InputError(f"session {sess.id} is already {st.state}; see `winder report "
-                             f"{sess.id}`", where="SESSION")
-        port = port or st.device.get("url")
-        if not port:
-            raise InputError("give --port (the session does not know its port)", where="--port")
+        port = resume_port(sess, port)
         plan, sched = load_frozen(sess.path)
         if plan is None:
             raise InputError("the session's coil cannot be planned again for the monitor; "
                              "resume with --headless", where="SESSION")
         machine = sched.machine if sched is not None else None
         events: queue.Queue = queue.Queue(maxsize=10000)
-        link = _open_link(port, events)
+        link = open_link(port, events)
     except BaseException:
         if link is not None:
             link.close()
@@ -228,18 +220,7 @@ def resume_control(session_ref: str | Path, *, port: str | None = None,
                       events=events, ambient_c=ambient_c, on_update=on_update)
 
     def begin(runner: Any) -> None:
-        got = reading
-        if got is None and (link.info.boot_id or "") != (sess.state.boot_id or "") \
-                and runner.can_measure:
-            from winder.session.calibration import Reading
-
-            ohm = runner.measure_now()
-            if ohm is not None:
-                got = Reading(0.0, ohm, None, "device reading at resume")
-        if got is not None:
-            from winder.session.calibration import Reading
-
-            got = Reading(sess.state.turns, got.ohm, got.temp_c, got.note)
+        got = resume_reading(runner, reading)
         rec = runner.resume(got, accept_correction=accept_correction)
         if rec.suggested_turns is not None and not rec.same_boot and not accept_correction:
             control.feed.log(f"the reading suggests {rec.suggested_turns:.0f} +/- "
