@@ -174,23 +174,39 @@ def _tui():
     return wind
 
 
+def _ui():
+    """The terminal UI's entry points; without them, a one-line InputError."""
+    tui = _tui()
+    if tui is None:
+        raise InputError("the terminal monitor is not available; add --headless",
+                         where="--headless")
+    return tui
+
+
+def _headless_runner(args: argparse.Namespace, sess, link, events, *, schedule, machine,
+                     ambient: float | None):
+    """The session runner for ``wind``/``resume --headless``, printing its updates."""
+    from winder.session.runner import Runner
+
+    return Runner(sess, link, schedule=schedule, machine=machine,
+                  stop_at_resistance=args.stop_at_resistance,
+                  auto_continue=args.auto_continue, events=events,
+                  ambient_c=ambient, on_update=_printer(args.quiet))
+
+
 def cmd_wind(args: argparse.Namespace) -> int:
     import queue
 
     from winder.session.prepare import machine_for, open_link, prepare, started_fields
-    from winder.session.runner import Runner, check_stop_at_resistance
+    from winder.session.runner import check_stop_at_resistance
     from winder.session.session import Session
 
     ambient = _ambient(args)
     if not args.headless:
-        tui = _tui()
-        if tui is None:
-            raise InputError("the terminal monitor is not available; add --headless",
-                             where="--headless")
-        return tui.run_wind(args.coil, port=args.port, machine_file=args.machine,
-                            session_dir=args.session,
-                            stop_at_resistance=args.stop_at_resistance,
-                            auto_continue=args.auto_continue, ambient_c=ambient)
+        return _ui().run_wind(args.coil, port=args.port, machine_file=args.machine,
+                              session_dir=args.session,
+                              stop_at_resistance=args.stop_at_resistance,
+                              auto_continue=args.auto_continue, ambient_c=ambient)
     _check_profiles(args.coil, args.machine)
     events: queue.Queue = queue.Queue(maxsize=10000)
     link = open_link(args.port, events)
@@ -207,10 +223,8 @@ def cmd_wind(args: argparse.Namespace) -> int:
                               plan=prep.plan.to_dict(), schedule=prep.schedule.to_dict(),
                               started=started_fields(prep, info.to_dict()),
                               session_dir=args.session)
-        runner = Runner(sess, link, schedule=prep.schedule, machine=machine,
-                        stop_at_resistance=args.stop_at_resistance,
-                        auto_continue=args.auto_continue, events=events,
-                        ambient_c=ambient, on_update=_printer(args.quiet))
+        runner = _headless_runner(args, sess, link, events, schedule=prep.schedule,
+                                  machine=machine, ambient=ambient)
         print(f"session {sess.id}  ({sess.path})", flush=True)
         print(f"coil {prep.coil.name}: {prep.plan.turns} turns planned, "
               f"{_fmt_ohm(prep.plan.resistance_ohm)} at 20 C, "
@@ -242,7 +256,6 @@ def cmd_resume(args: argparse.Namespace) -> int:
 
     from winder.session.calibration import Reading
     from winder.session.prepare import open_link, resume_port, resume_reading
-    from winder.session.runner import Runner
     from winder.session.session import Session
 
     reading = None
@@ -251,14 +264,10 @@ def cmd_resume(args: argparse.Namespace) -> int:
         reading = Reading(0.0, ohm, temp, "at resume")
     ambient = _ambient(args)
     if not args.headless:
-        tui = _tui()
-        if tui is None:
-            raise InputError("the terminal monitor is not available; add --headless",
-                             where="--headless")
-        return tui.run_resume(args.session, port=args.port, reading=reading,
-                              accept_correction=args.accept_correction,
-                              stop_at_resistance=args.stop_at_resistance,
-                              auto_continue=args.auto_continue, ambient_c=ambient)
+        return _ui().run_resume(args.session, port=args.port, reading=reading,
+                                accept_correction=args.accept_correction,
+                                stop_at_resistance=args.stop_at_resistance,
+                                auto_continue=args.auto_continue, ambient_c=ambient)
     sess = Session.open(args.session, writable=True)
     link = None
     try:
@@ -273,10 +282,8 @@ def cmd_resume(args: argparse.Namespace) -> int:
             machine = schedule.machine
         events: queue.Queue = queue.Queue(maxsize=10000)
         link = open_link(port, events)
-        runner = Runner(sess, link, schedule=schedule, machine=machine,
-                        stop_at_resistance=args.stop_at_resistance,
-                        auto_continue=args.auto_continue, events=events,
-                        ambient_c=ambient, on_update=_printer(args.quiet))
+        runner = _headless_runner(args, sess, link, events, schedule=schedule,
+                                  machine=machine, ambient=ambient)
         print(f"resuming {sess.id} at {st.turns:g} of {st.stop_turns:g} turns "
               f"(journal state {sess.effective_state()})", flush=True)
         if sess.torn is not None:
