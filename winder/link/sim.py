@@ -304,12 +304,18 @@ class SimDevice:
         self._advance(self.rpm / 60 * dt)
 
     # ---- faults ---------------------------------------------------------------------
-    def stall(self) -> list[bytes]:
+    def _motor_fault(self, bit: int) -> bool:
+        """Stop the spindle and latch fault ``bit``; False (nothing done) without a motor."""
         if not self.has_motor:
-            return []
+            return False
         self.rpm = 0.0
         self.state = "fault"
-        self.faults |= F_STALL
+        self.faults |= bit
+        return True
+
+    def stall(self) -> list[bytes]:
+        if not self._motor_fault(F_STALL):
+            return []
         return [encode_device("EV", "stall", c=self.count)]
 
     def estop(self) -> list[bytes]:
@@ -322,11 +328,8 @@ class SimDevice:
         return [encode_device("EV", "estop", c=self.count)]
 
     def limit(self) -> list[bytes]:
-        if not self.has_motor:
+        if not self._motor_fault(F_LIMIT):
             return []
-        self.rpm = 0.0
-        self.state = "fault"
-        self.faults |= F_LIMIT
         side = "end" if self.guide_mm > self.travel_mm / 2 else "start"
         return [encode_device("EV", "limit", side=side, g=round(self.guide_mm, 3))]
 
@@ -426,15 +429,20 @@ class SimServer:
             self.client.close()
             self.client = None
 
+    def _corrupted(self, data: bytes) -> bytes:
+        """``data`` with each byte replaced by a random one with probability ``corrupt``."""
+        if self.corrupt <= 0:
+            return data
+        b = bytearray(data)
+        for i in range(len(b)):
+            if self.rng.random() < self.corrupt:
+                b[i] = self.rng.randrange(256)
+        return bytes(b)
+
     def send(self, data: bytes) -> None:
         if not data or time.monotonic() < self.drop_until:
             return
-        if self.corrupt > 0:
-            b = bytearray(data)
-            for i in range(len(b)):
-                if self.rng.random() < self.corrupt:
-                    b[i] = self.rng.randrange(256)
-            data = bytes(b)
+        data = self._corrupted(data)
         try:
             if self.master is not None:
                 os.write(self.master, data)
@@ -450,12 +458,7 @@ class SimServer:
     def _on_bytes(self, data: bytes, now: float) -> None:
         if now < self.boot_until:
             return                     # booting: the UART is not listening yet
-        if self.corrupt > 0:
-            b = bytearray(data)
-            for i in range(len(b)):
-                if self.rng.random() < self.corrupt:
-                    b[i] = self.rng.randrange(256)
-            data = bytes(b)
+        data = self._corrupted(data)
         for line in self.framer.feed(data):
             for out in self.dev.handle(line, now):
                 self.send(out)
