@@ -91,13 +91,10 @@ def wait_turns(sdir, at_least, timeout=30.0):
 
 
 def wait_stopped(sim, timeout=5.0):
-    deadline = time.monotonic() + timeout
-    while time.monotonic() < deadline:
-        t = sim.truth()
-        if not t["motor_running"]:
-            return t
-        time.sleep(0.05)
-    raise AssertionError("the simulated motor did not stop")
+    t = sim.wait_truth(lambda t: not t["motor_running"], timeout)
+    if t is None:
+        raise AssertionError("the simulated motor did not stop")
+    return t
 
 
 def report(tmp_path, sdir):

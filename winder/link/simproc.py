@@ -18,6 +18,7 @@ import subprocess
 import sys
 import threading
 import time
+from collections.abc import Callable
 from pathlib import Path
 
 from winder.link.errors import LinkError
@@ -55,6 +56,18 @@ class SimProcess:
 
     def truth(self) -> dict:
         return self.control("truth")
+
+    def wait_truth(self, cond: Callable[[dict], bool], timeout: float,
+                   poll_s: float = 0.05) -> dict | None:
+        """The first truth (polled every ``poll_s`` s) for which ``cond`` holds, or None
+        after ``timeout`` seconds."""
+        deadline = time.monotonic() + timeout
+        while time.monotonic() < deadline:
+            t = self.truth()
+            if cond(t):
+                return t
+            time.sleep(poll_s)
+        return None
 
     def close(self) -> None:
         """Stop the simulator (idempotent)."""

@@ -207,14 +207,11 @@ class _Run:
             self.note(f"recovered after {time.monotonic() - since:.2f} s at count {t['count']}")
 
     def wait_stopped(self, timeout: float = 5.0) -> dict[str, Any] | None:
-        deadline = time.monotonic() + timeout
-        while time.monotonic() < deadline:
-            t = self.truth()
-            if not t["motor_running"]:
-                return t
-            time.sleep(0.02)
-        self.res.problems.append("the motor did not stop after the host vanished")
-        return None
+        assert self.sim is not None
+        t = self.sim.wait_truth(lambda t: not t["motor_running"], timeout, poll_s=0.02)
+        if t is None:
+            self.res.problems.append("the motor did not stop after the host vanished")
+        return t
 
     def real_time(self) -> None:
         """Spindle at real speed, long enough for the host's rpm to be the real one."""
