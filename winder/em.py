@@ -99,6 +99,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
@@ -504,6 +505,29 @@ def polygon_bz_per_a(outline: NDArray[np.float64], z_m: ArrayLike) -> NDArray[np
     return MU0 / (4.0 * np.pi) * terms.sum(axis=-1)
 
 
+@lru_cache(maxsize=16)
+def _gauss_legendre(n: int) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """Gauss-Legendre nodes and weights on [-1, 1] (numpy's, cached: about 0.6 ms a call)."""
+    return np.polynomial.legendre.leggauss(n)
+
+
+def _grown_outlines(width_m: float, length_m: float, corner_radius_m: float,
+                    hs: NDArray[np.float64], arc_segments: int) -> NDArray[np.float64]:
+    """:func:`rounded_rect_outline` for every build height in ``hs`` (all > 0), stacked.
+
+    Each vertex is a corner centre plus the grown corner radius times a fixed unit
+    direction, so the outline of every height comes from the outline of one:
+    vertices = centres + (r + h)/(r + h0) x (outline(h0) - centres).
+    """
+    h0 = float(hs[0])
+    first = rounded_rect_outline(width_m, length_m, corner_radius_m, h0, arc_segments)
+    cx = width_m / 2.0 - corner_radius_m
+    cy = length_m / 2.0 - corner_radius_m
+    centres = np.column_stack([np.sign(first[:, 0]) * cx, np.sign(first[:, 1]) * cy])
+    scale = (corner_radius_m + np.asarray(hs)) / (corner_radius_m + h0)
+    return centres[None] + scale[:, None, None] * (first - centres)[None]
+
+
 def rect_coil_bz_per_a(shape: CoilShape, z_m: ArrayLike, *, radial_points: int = 8,
                        axial_points: int = 12, arc_segments: int = 12) -> NDArray[np.float64]:
     """On-axis flux density per ampere of a coil on a rectangular core, T/A.
@@ -516,13 +540,12 @@ def rect_coil_bz_per_a(shape: CoilShape, z_m: ArrayLike, *, radial_points: int =
     the faces.
     """
     z = np.atleast_1d(np.asarray(z_m, dtype=float))
-    xr, wr = np.polynomial.legendre.leggauss(radial_points)
-    xz, wz = np.polynomial.legendre.leggauss(axial_points)
+    xr, wr = _gauss_legendre(radial_points)
+    xz, wz = _gauss_legendre(axial_points)
     hs = (xr + 1.0) * shape.build_m / 2.0
     zs = xz * shape.length_m / 2.0
-    outlines = np.stack([rounded_rect_outline(shape.core_width_m, shape.core_length_m,
-                                              shape.corner_radius_m, h, arc_segments)
-                         for h in hs])  # (nr, n+1, 2)
+    outlines = _grown_outlines(shape.core_width_m, shape.core_length_m,
+                               shape.corner_radius_m, hs, arc_segments)  # (nr, n+1, 2)
     dz = z[:, None] - zs[None, :]  # (m, nz)
     b = polygon_bz_per_a(outlines[None, None], dz[:, :, None])  # (m, nz, nr)
     weights = wz[:, None] * wr[None, :] / 4.0  # mean over the cross-section

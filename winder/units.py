@@ -150,20 +150,32 @@ def parse(text: Any, kind: str, *, where: str | None = None, key: str | None = N
     num, unit = _split(text, kind, where, key)
     for pattern, repl in _UNIT_ALIASES:
         unit = pattern.sub(repl, unit)
-    ureg = registry()
     try:
-        units = ureg.parse_units(unit)
-        q = ureg.Quantity(num, units)
-        ok = q.check(DIMENSIONS[kind])
+        factor = _si_factor(unit, kind)
     except Exception as err:  # pint raises several families; all mean "not a unit"
         raise InputError(f"{text!r}: unknown unit {unit!r}; expected a {kind} such as "
                          f"{EXAMPLES[kind]}", **loc) from err
-    if not ok:
+    if factor is None:
         raise InputError(f"{text!r} is not a {kind} (its unit is {unit!r}); expected e.g. "
                          f"{EXAMPLES[kind]}", **loc)
-    value = float(q.to_base_units().magnitude) * _SI_TO_CALLER.get(kind, 1.0)
+    value = num * factor
     _check_range(value, text, positive, allow_zero, maximum, loc)
     return value
+
+
+@lru_cache(maxsize=512)
+def _si_factor(unit: str, kind: str) -> float | None:
+    """SI value of one ``unit`` for ``kind`` (None: wrong dimension); raises for no unit.
+
+    Cached: pint's unit parsing costs about 1 ms a call, and planners and gauge rankings
+    parse the same few units many times. Only multiplicative units come here
+    (temperatures go through :func:`parse_temperature`).
+    """
+    ureg = registry()
+    q = ureg.Quantity(1.0, ureg.parse_units(unit))
+    if not q.check(DIMENSIONS[kind]):
+        return None
+    return float(q.to_base_units().magnitude) * _SI_TO_CALLER.get(kind, 1.0)
 
 
 def _check_range(value: float, text: Any, positive: bool, allow_zero: bool,
