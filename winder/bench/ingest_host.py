@@ -31,7 +31,8 @@ def main(argv: list[str]) -> int:
     injected = [0]
 
     def tap(ev: object) -> None:             # link thread: count the flood's lines only
-        if type(ev).__name__ == "Status" and getattr(ev, "count", 0) != 0:
+        # (the flood says 1500 rpm; the idle simulator's own status lines say 0)
+        if type(ev).__name__ == "Status" and getattr(ev, "rpm", 0) == 1500.0:
             injected[0] += 1
 
     link = WinderLink(device, events=events, on_event=tap)

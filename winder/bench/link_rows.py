@@ -25,8 +25,8 @@ CODEC_RATIO = 20.0          # issue budget: parse at least 20 x the line rate
 INGEST_RATIO = 1.0          # ours: the host keeps up with a saturated line
 
 
-def status_lines(n: int, start: int = 1234) -> list[bytes]:
-    """``n`` running-controller status lines from the codec, counts rising from ``start``.
+def status_lines(n: int, start: int = 1234, step: int = 1) -> list[bytes]:
+    """``n`` running-controller status lines from the codec, counts ``start + step * i``.
 
     Shaped like the example in firmware-protocol.md section 3.3
     (``ST c=1234 rpm=1500 g=12.5 s=run f=0 q=2 *DDD8``, 46 bytes with the LF): short
@@ -38,7 +38,7 @@ def status_lines(n: int, start: int = 1234) -> list[bytes]:
     out = []
     for i in range(n):
         out.append(encode_status(StatusReport(
-            count=start + i, rpm=1500.0, guide_mm=round(2.0 + (i % 80) * 0.1, 1),
+            count=start + step * i, rpm=1500.0, guide_mm=round(2.0 + (i % 80) * 0.1, 1),
             state="run", fault_bits=0, queued=2)))
     return out
 
@@ -99,7 +99,10 @@ def ingest_row(quick: bool) -> Row:
     n = 300 if quick else 4_000
     offered = 1_000.0                    # lines/s the flood is paced at (3.5 x line rate)
     batch = 20
-    lines = status_lines(n, start=1)
+    # The flood carries the idle simulator's own count (0): counts that ran ahead of the
+    # device's would read, at the device's next own status, as a count that fell back,
+    # which the driver rightly treats as an unannounced reboot (a new handshake).
+    lines = status_lines(n, start=0, step=0)
     floor, mean = line_rate(lines)
     with tempfile.TemporaryDirectory(prefix="winder-bench-") as data, \
             start_sim(mode="counter", speedup=1000.0, extra=["--crank-rpm", "0"]) as sim:
