@@ -74,6 +74,24 @@ class _Canvas:
         if not self.style[row][col] or style != STYLE_BAND:
             self.style[row][col] = style
 
+    def dot_under(self, x: int, y: int, style: str) -> None:
+        """Set dot (x, y) beneath what is drawn: its style shows only in a cell that is
+        empty or holds the band alone (as if drawn before the band and the curve)."""
+        if not (0 <= x < 2 * self.w and 0 <= y < 4 * self.h):
+            return
+        col, row = x // 2, self.h - 1 - y // 4
+        self.bits[row][col] |= _DOTS[x % 2][3 - y % 4]
+        if self.style[row][col] in ("", STYLE_BAND):
+            self.style[row][col] = style
+
+    def copy(self) -> _Canvas:
+        out = _Canvas.__new__(_Canvas)
+        out.w, out.h = self.w, self.h
+        out.bits = [row[:] for row in self.bits]
+        out.style = [row[:] for row in self.style]
+        out.mark = dict(self.mark)
+        return out
+
     def line(self, x0: int, y0: int, x1: int, y1: int, style: str) -> None:
         steps = max(abs(x1 - x0), abs(y1 - y0), 1)
         for i in range(steps + 1):
@@ -93,6 +111,28 @@ class _Canvas:
                     t.append(" ")
             lines.append(t)
         return lines
+
+
+_BASE: dict[tuple, _Canvas] = {}
+
+
+def _draw_base(cv: _Canvas, sx: float, sy: float, xs: Sequence[float], ys: Sequence[float],
+               band: tuple[Sequence[float], Sequence[float]] | None,
+               readings: Sequence[tuple[float, float]]) -> None:
+    """The parts of the chart that do not move with the count: band, curve, readings."""
+    def pt(x: float, y: float) -> tuple[int, int]:
+        return round(x * sx), round(max(0.0, y) * sy)
+
+    if band is not None:
+        for series in band:
+            for i in range(1, len(xs)):
+                cv.line(*pt(xs[i - 1], series[i - 1]), *pt(xs[i], series[i]), STYLE_BAND)
+    for i in range(1, len(xs)):
+        cv.line(*pt(xs[i - 1], ys[i - 1]), *pt(xs[i], ys[i]), STYLE_CURVE)
+    for x, y in readings:
+        px, py = pt(x, y)
+        col, row = min(cv.w - 1, px // 2), cv.h - 1 - min(cv.h - 1, py // 4)
+        cv.mark[(col, row)] = ("●", STYLE_POINT)
 
 
 def resistance_chart(width: int, height: int, *, turns_max: float,
@@ -117,25 +157,19 @@ def resistance_chart(width: int, height: int, *, turns_max: float,
     x_max = round_up(max(turns_max, *(r[0] for r in readings), 1.0))
     sx = (2 * plot_w - 1) / x_max
     sy = (4 * plot_h - 1) / y_max
-    cv = _Canvas(plot_w, plot_h)
-
-    def pt(x: float, y: float) -> tuple[int, int]:
-        return round(x * sx), round(max(0.0, y) * sy)
-
+    key = (plot_w, plot_h, x_max, y_max, tuple(xs), tuple(ys),
+           None if band is None else (tuple(band[0]), tuple(band[1])), tuple(readings))
+    base = _BASE.get(key)
+    if base is None:
+        base = _Canvas(plot_w, plot_h)
+        _draw_base(base, sx, sy, xs, ys, band, readings)
+        _BASE.clear()                    # one chart on screen: keep the newest only
+        _BASE[key] = base
+    cv = base.copy()
     if now_turns is not None and 0 <= now_turns <= x_max:
-        x = pt(now_turns, 0)[0]
+        x = round(now_turns * sx)
         for y in range(0, 4 * plot_h, 2):
-            cv.dot(x, y, STYLE_NOW)
-    if band is not None:
-        for series in band:
-            for i in range(1, len(xs)):
-                cv.line(*pt(xs[i - 1], series[i - 1]), *pt(xs[i], series[i]), STYLE_BAND)
-    for i in range(1, len(xs)):
-        cv.line(*pt(xs[i - 1], ys[i - 1]), *pt(xs[i], ys[i]), STYLE_CURVE)
-    for x, y in readings:
-        px, py = pt(x, y)
-        col, row = min(plot_w - 1, px // 2), plot_h - 1 - min(plot_h - 1, py // 4)
-        cv.mark[(col, row)] = ("●", STYLE_POINT)
+            cv.dot_under(x, y, STYLE_NOW)
 
     out = CellText()
     for row, line in enumerate(cv.text()):
