@@ -12,6 +12,7 @@ import json
 import time
 
 import pytest
+from textual.css.query import NoMatches
 from textual.widgets import Digits, Input
 
 from tests.tui_standins import screen_text
@@ -41,8 +42,11 @@ async def until(pilot, cond, timeout=60.0, what="condition"):
     """Let the app run until ``cond()`` holds (bounded by ``timeout`` seconds)."""
     deadline = time.monotonic() + timeout
     while time.monotonic() < deadline:
-        if cond():
-            return
+        try:
+            if cond():
+                return
+        except NoMatches:  # a screen just pushed may not have mounted its widgets yet
+            pass
         await pilot.pause(0.05)
     raise AssertionError(f"timed out waiting for {what}")
 
